@@ -1,0 +1,283 @@
+"""Shared machinery: critical regions, power, the solvers, and ``evaluate``.
+
+Nothing here knows a particular design; every design reaches these functions
+through the :class:`~powercore.design.Design` protocol.
+"""
+from __future__ import annotations
+
+import math
+import numpy as np
+from scipy.special import expit, logit, ndtri
+
+from .design import Design, fmt, get_design
+from .errors import NoSolution
+from .result import Result, SampleSize, Step
+from .scenario import N_MAX, Scenario
+from .solver import solve_increasing
+
+__all__ = ["critical_values", "detectable_effect", "evaluate", "power", "power_at",
+           "sample_size", "significance_level"]
+
+EXACT_SCAN_LIMIT = 10**7
+ALPHA_RANGE = (1e-12, 1 - 1e-12)
+
+
+def critical_values(st, alpha, direction):
+    """Lower and upper critical values of the statistic (NaN for a side that does not reject)."""
+    nan = np.full(np.shape(alpha), np.nan)
+    if direction == "two-sided":
+        lo = st.null.crit_lower(np.asarray(alpha) / 2) - st.shift
+        hi = st.null.crit_upper(np.asarray(alpha) / 2) + st.shift
+    elif direction == "upper":
+        lo, hi = nan, st.null.crit_upper(alpha) + st.shift
+    else:
+        lo, hi = st.null.crit_lower(alpha) - st.shift, nan
+    return np.asarray(lo, dtype=float), np.asarray(hi, dtype=float)
+
+
+def _tails(st, lo, hi):
+    """Probability under the alternative of each rejection tail (0 for an unused side)."""
+    upper = np.where(np.isnan(hi), 0.0, st.alt.tail_upper(np.nan_to_num(hi)))
+    lower = np.where(np.isnan(lo), 0.0, st.alt.tail_lower(np.nan_to_num(lo)))
+    return np.asarray(lower, dtype=float), np.asarray(upper, dtype=float)
+
+
+def power_at(design: Design, p: dict, n, alpha, direction: str, integer: bool = True) -> np.ndarray:
+    """Power, vectorised over any of ``p``'s values, ``n`` and ``alpha`` (they broadcast)."""
+    sizes = design.group_sizes(p, n, integer)
+    st = design.statistic(p, sizes)
+    lo, hi = critical_values(st, alpha, direction)
+    lower, upper = _tails(st, lo, hi)
+    return np.clip(lower + upper, 0.0, 1.0)
+
+
+def power(scenario: Scenario) -> float:
+    """Power of the scenario at its own n, effect and α."""
+    d = get_design(scenario.design)
+    return float(power_at(d, dict(scenario.params), scenario.n, scenario.alpha, scenario.direction))
+
+
+# ---- sample size --------------------------------------------------------------
+def _check_effect_for_n(d: Design, p: dict, direction: str) -> None:
+    x = p[d.effect]
+    if x == 0:
+        raise NoSolution("n", "the effect is zero, so power stays at α whatever the sample size", x)
+    if direction == "upper" and x < 0:
+        raise NoSolution("n", "the effect is negative but the alternative is upper; power falls as n grows", x)
+    if direction == "lower" and x > 0:
+        raise NoSolution("n", "the effect is positive but the alternative is lower; power falls as n grows", x)
+
+
+def _n_guess(d: Design, p: dict, alpha: float, direction: str, target: float, n0: int) -> float:
+    """Normal-theory guess at n from the noncentrality at ``n0`` (it grows like √n)."""
+    st = d.statistic(p, d.group_sizes(p, n0, integer=False))
+    nc = abs(float(np.asarray(st.noncentrality)))
+    a = alpha / 2 if direction == "two-sided" else alpha
+    need = -ndtri(a) + ndtri(target)
+    if not math.isfinite(nc) or nc == 0:
+        return float(n0) * 4
+    return max(float(n0), n0 * (need / nc) ** 2)
+
+
+def sample_size(design: Design, p: dict, alpha: float, direction: str, target: float) -> SampleSize:
+    """The smallest whole n whose power reaches ``target``."""
+    _check_effect_for_n(design, p, direction)
+    n_min = design.min_n(p)
+    guess = _n_guess(design, p, alpha, direction, target, n_min)
+
+    def pw(n, integer=True):
+        return float(power_at(design, p, n, alpha, direction, integer))
+
+    if design.discrete:
+        return _exact_sample_size(design, p, alpha, direction, target, n_min, guess)
+    n_cont = solve_increasing(lambda n: pw(n, False), target, float(n_min), math.inf, field="n",
+                              start=min(max(guess, n_min + 1.0), float(N_MAX)), what="the target power",
+                              xtol=1e-7, rtol=1e-12)
+    if n_cont > N_MAX:
+        raise NoSolution("n", f"the target power needs more than {N_MAX:g} {design.n.unit}", n_cont)
+    n = max(n_min, math.ceil(n_cont - 1e-7))
+    for _ in range(1000):          # the integer solution is at most a step or two from the root
+        if pw(n) >= target:
+            break
+        n += 1
+    else:
+        raise NoSolution("n", "power does not rise with n near the solution")
+    for _ in range(1000):
+        if n - 1 >= n_min and pw(n - 1) >= target:
+            n -= 1
+        else:
+            break
+    return _make_sample_size(design, p, n, n_min, pw, target, n, None)
+
+
+def _exact_sample_size(design, p, alpha, direction, target, n_min, guess) -> SampleSize:
+    """Scan whole n for an exact discrete test: first n reaching the target, and where it stays."""
+    start, size = n_min, int(min(max(4 * guess + 200, 1000), 200_000))
+    first = None
+    while start <= EXACT_SCAN_LIMIT:
+        ns = np.arange(start, start + size, dtype=float)
+        hit = np.nonzero(power_at(design, p, ns, alpha, direction) >= target)[0]
+        if hit.size:
+            first = int(ns[hit[0]])
+            break
+        start, size = start + size, min(size * 2, 1_000_000)
+    if first is None:
+        raise NoSolution("n", f"the exact search stops at {EXACT_SCAN_LIMIT:g} {design.n.unit}; "
+                              "use the normal approximation for effects this small")
+    horizon = 2 * first + 100
+    ns = np.arange(first, horizon + 1, dtype=float)
+    below = np.nonzero(power_at(design, p, ns, alpha, direction) < target)[0]
+    stays = first if below.size == 0 else int(ns[below[-1]]) + 1
+
+    def pw(n, integer=True):
+        return float(power_at(design, p, n, alpha, direction))
+
+    return _make_sample_size(design, p, first, n_min, pw, target, stays, horizon)
+
+
+def _make_sample_size(design, p, n, n_min, pw, target, stays, horizon) -> SampleSize:
+    sizes = tuple(int(round(float(s))) for s in design.group_sizes(p, n, integer=True))
+    below = n - 1 if n - 1 >= n_min else None
+    return SampleSize(n=int(n), power=pw(n), n_below=below,
+                      power_below=None if below is None else pw(below),
+                      group_sizes=sizes, total=int(sum(sizes)), target=target,
+                      stays_from=int(stays), checked_to=horizon)
+
+
+# ---- smallest detectable effect -----------------------------------------------
+def detectable_effect(design: Design, p: dict, n: int, alpha: float, direction: str,
+                      target: float) -> dict[str, float | None]:
+    """Smallest effect on each allowed side whose power at n reaches ``target``.
+
+    Returns ``{"upper": x, "lower": y}``; a side is ``None`` when the direction
+    does not test it. Raises NoSolution when a tested side cannot reach the target.
+    """
+    sides = {"two-sided": ("upper", "lower"), "upper": ("upper",), "lower": ("lower",)}[direction]
+    lo_b, hi_b = design.effect_bounds(p)
+    out: dict[str, float | None] = {"upper": None, "lower": None}
+    scale = design.effect_scale(p)
+    for side in sides:
+        sign = 1.0 if side == "upper" else -1.0
+        bound = hi_b if side == "upper" else -lo_b
+        edge = bound - max(1e-9, 1e-9 * abs(bound)) if math.isfinite(bound) else math.inf
+
+        def f(m, sign=sign):
+            return float(power_at(design, {**p, design.effect: sign * m}, n, alpha, direction))
+
+        m = solve_increasing(f, target, 0.0, edge, field="effect", start=scale * 0.5,
+                             what=f"the target power on the {side} side", xtol=1e-12 * max(scale, 1e-3))
+        out[side] = sign * m
+    return out
+
+
+# ---- significance level -------------------------------------------------------
+def significance_level(design: Design, p: dict, n: int, direction: str, target: float) -> float:
+    """Smallest α at which the test reaches ``target`` power at n."""
+    lo, hi = (float(logit(a)) for a in ALPHA_RANGE)
+
+    def f(u):
+        return float(power_at(design, p, n, float(expit(u)), direction))
+
+    u = solve_increasing(f, target, lo, hi, field="alpha", what="the target power", xtol=1e-10)
+    return float(expit(u))
+
+
+# ---- evaluate -----------------------------------------------------------------
+def evaluate(scenario: Scenario) -> Result:
+    """Find the scenario's unknown, then compute power, critical region and the working there."""
+    d = get_design(scenario.design)
+    p = dict(scenario.params)
+    find, direction, target = scenario.find, scenario.direction, scenario.target_power
+    alpha, n = scenario.alpha, scenario.n
+    messages: dict[str, str] = {}
+    ss = None
+
+    if find == "n":
+        ss = sample_size(d, p, alpha, direction, target)
+        n = ss.n
+    elif find == "effect":
+        det = detectable_effect(d, p, n, alpha, direction, target)
+        current = p.get(d.effect)
+        side = "lower" if (det["upper"] is None or (current is not None and current < 0
+                                                     and det["lower"] is not None)) else "upper"
+        p[d.effect] = det[side]
+    elif find == "alpha":
+        alpha = significance_level(d, p, n, direction, target)
+
+    solved = scenario.replace(n=n, alpha=alpha, params={d.effect: p[d.effect]})
+    if ss is None and find != "effect":
+        try:
+            ss = sample_size(d, p, alpha, direction, target) if alpha < target else None
+        except NoSolution as e:
+            messages["n"] = str(e)
+    try:
+        detectable = detectable_effect(d, p, n, alpha, direction, target)
+    except NoSolution as e:
+        messages["effect"] = str(e)
+        detectable = {"upper": None, "lower": None}
+    if find == "effect":
+        ss = sample_size(d, p, alpha, direction, target)
+    return _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messages)
+
+
+def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messages) -> Result:
+    sizes = d.group_sizes(p, n, integer=True)
+    st = d.statistic(p, sizes)
+    lo, hi = critical_values(st, alpha, direction)
+    lower, upper = _tails(st, lo, hi)
+    pw = float(np.clip(lower + upper, 0, 1))
+    size = float(power_at(d, {**p, d.effect: 0.0}, n, alpha, direction))
+    ex = d.explain(p, sizes, st)
+    s = d.statistic_symbol
+    lo_f, hi_f = float(lo), float(hi)
+    data_lo = None if math.isnan(lo_f) else float(st.to_data(lo_f))
+    data_hi = None if math.isnan(hi_f) else float(st.to_data(hi_f))
+    stat_lo = None if math.isnan(lo_f) else lo_f
+    stat_hi = None if math.isnan(hi_f) else hi_f
+    int_sizes = tuple(int(round(float(x))) for x in sizes)
+    eff = float(p[d.effect])
+    std = float(d.standardized(p))
+    a_side = f"α/2 = {fmt(alpha / 2)} in each tail" if direction == "two-sided" else f"α = {fmt(alpha)}"
+
+    def region(lo_v, hi_v, sym):
+        parts = []
+        if lo_v is not None:
+            parts.append(f"{sym} ≤ {fmt(lo_v)}")
+        if hi_v is not None:
+            parts.append(f"{sym} ≥ {fmt(hi_v)}")
+        return "reject H0 if " + " or ".join(parts)
+
+    prob_parts = []
+    if stat_hi is not None:
+        prob_parts.append(f"P({s} ≥ {fmt(stat_hi)} | H1) = {fmt(float(upper), 6)}")
+    if stat_lo is not None:
+        prob_parts.append(f"P({s} ≤ {fmt(stat_lo)} | H1) = {fmt(float(lower), 6)}")
+    groups = " + ".join(str(g) for g in int_sizes)
+    working = [
+        Step("design", f"{d.test}; n = {n} {d.n.unit}"
+             + (f" (groups {groups} = {sum(int_sizes)} {d.n.total_unit})" if len(int_sizes) > 1 else ""),
+             float(n)),
+        Step("effect", f"{d.effect_label} = {fmt(eff)}, standardized {d.standardized_name} = {fmt(std)}", eff),
+        Step("standard error", ex.se, float(st.se)),
+        Step("null distribution", ex.null),
+        Step("critical value (statistic)", f"{region(stat_lo, stat_hi, s)} ({a_side})",
+             stat_hi if stat_hi is not None else stat_lo),
+        Step("critical value (data units)", region(data_lo, data_hi, d.estimate_label),
+             data_hi if data_hi is not None else data_lo),
+        Step("noncentrality", ex.noncentrality, float(st.noncentrality)),
+        Step("alternative distribution", ex.alt),
+        Step("power", "; ".join(prob_parts) + (f"; power = sum = {fmt(pw, 6)}" if len(prob_parts) > 1 else ""),
+             pw),
+    ]
+    working += [Step(label, text) for label, text in ex.extra]
+    if d.conservative_at(p):
+        working.append(Step("actual size", f"P(reject H0 | H0) = {fmt(size, 6)} ≤ α", size))
+    return Result(
+        scenario=scenario, solved=solved, design_title=d.title, power=pw, n=int(n), n_unit=d.n.unit,
+        group_sizes=int_sizes, total=int(sum(int_sizes)), total_unit=d.n.total_unit, alpha=float(alpha),
+        effect=eff, standardized_effect=std, standardized_name=d.standardized_name, se=float(st.se),
+        noncentrality=float(st.noncentrality),
+        critical={"statistic": (stat_lo, stat_hi), "data": (data_lo, data_hi)}, size=size,
+        sample_size=ss, detectable=detectable, working=tuple(working), notes=tuple(d.notes) + (d.method,),
+        messages=messages)
+
