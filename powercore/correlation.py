@@ -4,10 +4,10 @@ from __future__ import annotations
 import numpy as np
 
 from .design import Design, Explanation, Statistic, fmt, register
-from .distributions import Normal
+from .distributions import Normal, SampleCorrelation
 from .spec import NSpec, ParamSpec
 
-__all__ = ["CorrelationFisher"]
+__all__ = ["CorrelationExact", "CorrelationFisher"]
 
 
 class _Correlation(Design):
@@ -60,3 +60,32 @@ class CorrelationFisher(_Correlation):
             se=f"SE = 1/√(n − 3) = 1/√{fmt(n - 3)} = {fmt(st.se)} (Fisher z units)",
             null="Z ~ N(0, 1)", alt=f"Z ~ N({fmt(st.noncentrality)}, 1)",
             noncentrality=f"λ = (atanh ρ − atanh ρ0)/SE = {fmt(q)}/{fmt(st.se)} = {fmt(st.noncentrality)}")
+
+
+@register
+class CorrelationExact(_Correlation):
+    id = "correlation-exact"
+    title = "Correlation (exact distribution of r)"
+    statistic_symbol = "r"
+    test = "test of Pearson's r against ρ0 using the exact null distribution of r (the t test when ρ0 = 0)"
+    method = ("exact for bivariate normal data: density of r from Hotelling (1953), integrated "
+              "numerically; critical values from the exact null distribution")
+    notes = ("Slower than the Fisher z design (numerical integration at every point); use it to "
+             "check the approximation at small n.",)
+
+    def statistic(self, p, sizes):
+        n = sizes[0]
+        rho0 = p["rho0"]
+        rho1 = rho0 + np.asarray(p["delta"])
+        se = 1 / np.sqrt(n - 3)
+        nc = self.standardized(p) / se
+        return Statistic(SampleCorrelation(n, rho0), SampleCorrelation(n, rho1), se, nc, lambda r: r)
+
+    def explain(self, p, sizes, st):
+        n = sizes[0]
+        rho1 = p["rho0"] + p["delta"]
+        return Explanation(
+            se=f"SE of atanh(r) ≈ 1/√(n − 3) = {fmt(st.se)} (for reference; the test uses r itself)",
+            null=f"r ~ exact distribution with n = {fmt(n)}, ρ = {fmt(p['rho0'])}",
+            alt=f"r ~ exact distribution with n = {fmt(n)}, ρ = {fmt(rho1)}",
+            noncentrality=f"(atanh ρ − atanh ρ0)·√(n − 3) = {fmt(st.noncentrality)} (reference only)")

@@ -1,0 +1,197 @@
+"""The ``powerlens`` command line: compute, batch, designs, example, serve.
+
+The core raises named errors; this module turns them into messages at the edge.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from typing import Any, Sequence
+
+from .design import designs, get_design
+from .engine import evaluate
+from .errors import InvalidParameter, NoSolution, RecordError
+from .scenario import DIRECTIONS, FINDS, Scenario
+
+__all__ = ["main", "scenario_from_args"]
+
+EXAMPLE = {  # invented scenario, for demonstration only
+    "design": "two-means-t", "find": "n", "direction": "two-sided", "alpha": 0.05, "target_power": 0.9,
+    "params": {"delta": 4.0, "sd": 9.0, "ratio": 1.0},
+}
+
+
+def _error_obj(e: Exception) -> dict[str, Any]:
+    return {"field": getattr(e, "field", None), "message": str(e), "kind": type(e).__name__}
+
+
+def _parse_value(text: str) -> Any:
+    low = text.strip().lower()
+    if low in ("true", "false"):
+        return low == "true"
+    try:
+        return json.loads(text)
+    except json.JSONDecodeError:
+        return text
+
+
+def scenario_from_args(args: argparse.Namespace) -> Scenario:
+    """Build a scenario from ``--json``/``--file`` (if given) overlaid with the flags."""
+    data: dict[str, Any] = {}
+    if args.json is not None or args.file is not None:
+        text = args.json if args.json is not None else _read(args.file)
+        try:
+            data = json.loads(text)
+        except json.JSONDecodeError as e:
+            raise RecordError("json", f"is not valid JSON ({e.msg} at line {e.lineno} column {e.colno})") from None
+        if isinstance(data, dict) and "assumptions" in data:  # a full record: take its scenario
+            data = data["assumptions"]
+        if not isinstance(data, dict):
+            raise RecordError("json", "must be a JSON object")
+        data = dict(data)
+    for key in ("design", "find", "direction", "alpha", "target_power", "n"):
+        value = getattr(args, key)
+        if value is not None:
+            data[key] = value
+    params = dict(data.get("params") or {})
+    for item in args.param or []:
+        name, sep, value = item.partition("=")
+        if not sep:
+            raise InvalidParameter("param", "must look like NAME=VALUE", item)
+        params[name.strip()] = _parse_value(value)
+    if params:
+        data["params"] = params
+    return Scenario.from_dict(data)
+
+
+def _read(path: str) -> str:
+    if path == "-":
+        return sys.stdin.read()
+    with open(path, encoding="utf-8") as fh:
+        return fh.read()
+
+
+def _text(result) -> str:
+    lines = [f"{result.design_title}",
+             f"  power {result.power:.4f} (β = {result.beta:.4f}) at α = {result.alpha:.4g}, "
+             f"{result.solved.direction}",
+             f"  n = {result.n} {result.n_unit}; groups {list(result.group_sizes)}, total {result.total} "
+             f"{result.total_unit}",
+             f"  effect {result.effect:.6g} (standardized {result.standardized_name} = "
+             f"{result.standardized_effect:.4g})"]
+    ss = result.sample_size
+    if ss is not None:
+        below = "" if ss.n_below is None else f"; at n = {ss.n_below}: {ss.power_below:.4f}"
+        lines.append(f"  required n for power {ss.target:g}: {ss.n} {result.n_unit} (power {ss.power:.4f}{below}); "
+                     f"total {ss.total}")
+        if ss.stays_from != ss.n:
+            lines.append(f"  exact test: power stays at or above the target from n = {ss.stays_from} "
+                         f"(checked to {ss.checked_to})")
+    det = {k: v for k, v in result.detectable.items() if v is not None}
+    if det:
+        lines.append("  smallest detectable effect: " + ", ".join(f"{k} {v:.6g}" for k, v in det.items()))
+    lines.append("  working:")
+    lines += [f"    {i}. {s.label}: {s.text}" for i, s in enumerate(result.working, 1)]
+    lines += [f"  note: {m}" for m in result.messages.values()]
+    return "\n".join(lines)
+
+
+def _cmd_compute(args) -> int:
+    if args.batch:
+        return _batch(sys.stdin, sys.stdout)
+    try:
+        result = evaluate(scenario_from_args(args))
+    except (InvalidParameter, NoSolution, RecordError) as e:
+        print(f"powerlens: {e}", file=sys.stderr)
+        if not args.text:
+            print(json.dumps({"error": _error_obj(e)}))
+        return 2
+    print(_text(result) if args.text else json.dumps(result.to_dict(), ensure_ascii=False, indent=1))
+    return 0
+
+
+def _batch(stream, out) -> int:
+    """One scenario per JSON line in, one result (or error object) per line out; the batch goes on."""
+    failures = 0
+    for lineno, line in enumerate(stream, 1):
+        if not line.strip():
+            continue
+        try:
+            data = json.loads(line)
+            row = {"line": lineno, "result": evaluate(Scenario.from_dict(data)).to_dict()}
+        except json.JSONDecodeError as e:
+            failures += 1
+            row = {"line": lineno, "error": {"field": "json", "message": f"invalid JSON: {e.msg}",
+                                             "kind": "RecordError"}}
+        except (InvalidParameter, NoSolution, RecordError, TypeError) as e:
+            failures += 1
+            row = {"line": lineno, "error": _error_obj(e)}
+        out.write(json.dumps(row, ensure_ascii=False) + "\n")
+        out.flush()
+    return 0 if failures == 0 else 1
+
+
+def _cmd_designs(args) -> int:
+    for d in designs():
+        print(f"{d.id:26s} {d.title}")
+        print(f"{'':26s}   n counts {d.n.unit} (at least {d.n.minimum}); standardized effect {d.standardized_name}")
+        for s in d.params:
+            print(f"{'':26s}   {s.name:11s} {s.label} [{s.unit or '-'}], default {s.default}, domain "
+                  f"{s.domain_text() if s.kind == 'real' else 'true/false'}")
+    return 0
+
+
+def _cmd_example(args) -> int:
+    print("Worked example (an invented scenario, not from any real study): a trial of a made-up\n"
+          "hand-exercise programme; grip strength differs by 4 kg between arms, SD 9 kg.\n")
+    result = evaluate(Scenario.from_dict(EXAMPLE))
+    print(_text(result))
+    print("\nTry your own:  powerlens compute --design two-means-t -p delta=4 -p sd=9 --find n --text")
+    return 0
+
+
+def _cmd_serve(args) -> int:
+    from app import server  # the web layer is imported only when asked for
+    return server.run(args)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="powerlens", description="Plan the size of a study.")
+    sub = parser.add_subparsers(dest="command", required=True)
+
+    c = sub.add_parser("compute", help="evaluate one scenario (flags or JSON), or a JSON Lines batch")
+    c.add_argument("--design", choices=[d.id for d in designs()])
+    c.add_argument("--find", choices=FINDS)
+    c.add_argument("--direction", choices=DIRECTIONS)
+    c.add_argument("--alpha", type=float)
+    c.add_argument("--target-power", dest="target_power", type=float)
+    c.add_argument("--n", type=int, help="sample size in the design's unit (see `powerlens designs`)")
+    c.add_argument("-p", "--param", action="append", metavar="NAME=VALUE", help="a design parameter")
+    c.add_argument("--json", help="a scenario (or a whole record) as a JSON string")
+    c.add_argument("--file", help="read the scenario or record from this JSON file ('-' for stdin)")
+    c.add_argument("--batch", action="store_true",
+                   help="read one scenario per line (JSON Lines) from stdin, write one result per line")
+    c.add_argument("--text", action="store_true", help="print a readable summary instead of JSON")
+    c.set_defaults(func=_cmd_compute)
+
+    sub.add_parser("designs", help="list the designs and their parameters").set_defaults(func=_cmd_designs)
+    sub.add_parser("example", help="print a worked example").set_defaults(func=_cmd_example)
+
+    s = sub.add_parser("serve", help="start the explorer page on 127.0.0.1")
+    try:
+        from app import server
+        server.add_arguments(s)
+    except ImportError:  # pragma: no cover - the web layer is optional for the core
+        pass
+    s.set_defaults(func=_cmd_serve)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    return args.func(args)
+
+
+if __name__ == "__main__":
+    sys.exit(main())
