@@ -35,7 +35,8 @@ def _arr(x) -> np.ndarray:
 
 
 def _clip01(p) -> np.ndarray:
-    return np.clip(np.nan_to_num(_arr(p), nan=0.0), 0.0, 1.0)
+    """Clamp probabilities to [0, 1]; NaN becomes 0 (``np.fmax`` ignores NaN)."""
+    return np.fmax(np.minimum(_arr(p), 1.0), 0.0)
 
 
 def _split(mask, when_true, when_false, *args) -> np.ndarray:
@@ -100,10 +101,11 @@ class Normal(_Continuous):
 
 def nct_cdf(x, df, nc):
     """Noncentral t CDF with the NaN of ``nctdtr`` far in the lower tail routed around."""
-    x, df, nc = np.broadcast_arrays(_arr(x), _arr(df), _arr(nc))
     p = _arr(special.nctdtr(df, nc, x))
     bad = ~np.isfinite(p)
     if bad.any():
+        x, df, nc = np.broadcast_arrays(_arr(x), _arr(df), _arr(nc))
+        x, df, nc = (np.broadcast_to(a, p.shape) for a in (x, df, nc))
         with np.errstate(all="ignore"):
             alt = _arr(stats.nct.sf(-x[bad], df[bad], -nc[bad]))
         still = ~np.isfinite(alt)
@@ -119,13 +121,14 @@ def nct_sf(x, df, nc):
 
 
 class StudentT(_Continuous):
-    """Student t with ``df`` degrees of freedom and noncentrality ``nc`` (0: central)."""
+    """Student t with ``df`` degrees of freedom and noncentrality ``nc`` (``None``: central)."""
 
     name = "t"
 
-    def __init__(self, df, nc=0.0):
-        self.df, self.nc = _arr(df), _arr(nc)
-        self.central = bool(np.all(self.nc == 0))
+    def __init__(self, df, nc=None):
+        self.df = _arr(df)
+        self.central = nc is None
+        self.nc = np.zeros(()) if nc is None else _arr(nc)
 
     def pdf(self, x):
         if self.central:

@@ -24,21 +24,20 @@ ALPHA_RANGE = (1e-12, 1 - 1e-12)
 
 def critical_values(st, alpha, direction):
     """Lower and upper critical values of the statistic (NaN for a side that does not reject)."""
-    nan = np.full(np.shape(alpha), np.nan)
     if direction == "two-sided":
-        lo = st.null.crit_lower(np.asarray(alpha) / 2) - st.shift
-        hi = st.null.crit_upper(np.asarray(alpha) / 2) + st.shift
-    elif direction == "upper":
-        lo, hi = nan, st.null.crit_upper(alpha) + st.shift
-    else:
-        lo, hi = st.null.crit_lower(alpha) - st.shift, nan
-    return np.asarray(lo, dtype=float), np.asarray(hi, dtype=float)
+        half = np.asarray(alpha) / 2
+        return (np.asarray(st.null.crit_lower(half) - st.shift, dtype=float),
+                np.asarray(st.null.crit_upper(half) + st.shift, dtype=float))
+    nan = np.full(np.shape(alpha), np.nan)
+    if direction == "upper":
+        return nan, np.asarray(st.null.crit_upper(alpha) + st.shift, dtype=float)
+    return np.asarray(st.null.crit_lower(alpha) - st.shift, dtype=float), nan
 
 
 def _tails(st, lo, hi):
     """Probability under the alternative of each rejection tail (0 for an unused side)."""
-    upper = np.where(np.isnan(hi), 0.0, st.alt.tail_upper(np.nan_to_num(hi)))
-    lower = np.where(np.isnan(lo), 0.0, st.alt.tail_lower(np.nan_to_num(lo)))
+    upper = 0.0 if np.isnan(hi).all() else st.alt.tail_upper(hi)
+    lower = 0.0 if np.isnan(lo).all() else st.alt.tail_lower(lo)
     return np.asarray(lower, dtype=float), np.asarray(upper, dtype=float)
 
 
@@ -48,7 +47,7 @@ def power_at(design: Design, p: dict, n, alpha, direction: str, integer: bool = 
     st = design.statistic(p, sizes)
     lo, hi = critical_values(st, alpha, direction)
     lower, upper = _tails(st, lo, hi)
-    return np.clip(lower + upper, 0.0, 1.0)
+    return np.maximum(np.minimum(lower + upper, 1.0), 0.0)
 
 
 def power(scenario: Scenario) -> float:
@@ -84,30 +83,31 @@ def sample_size(design: Design, p: dict, alpha: float, direction: str, target: f
     _check_effect_for_n(design, p, direction)
     n_min = design.min_n(p)
     guess = _n_guess(design, p, alpha, direction, target, n_min)
-
-    def pw(n, integer=True):
-        return float(power_at(design, p, n, alpha, direction, integer))
-
     if design.discrete:
         return _exact_sample_size(design, p, alpha, direction, target, n_min, guess)
-    n_cont = solve_increasing(lambda n: pw(n, False), target, float(n_min), math.inf, field="n",
-                              start=min(max(guess, n_min + 1.0), float(N_MAX)), what="the target power",
-                              xtol=1e-7, rtol=1e-12)
+
+    def pw(n, integer=True):
+        return power_at(design, p, n, alpha, direction, integer)
+
+    # solve on the √n scale, where power is close to probit-linear
+    u = solve_increasing(lambda u: pw(u * u, False), target, math.sqrt(n_min), math.inf, field="n",
+                         start=math.sqrt(min(max(guess, n_min + 0.5), float(N_MAX))),
+                         what="the target power", xtol=1e-3, rtol=1e-7, limit=math.sqrt(N_MAX) * 1.01)
+    n_cont = u * u
     if n_cont > N_MAX:
         raise NoSolution("n", f"the target power needs more than {N_MAX:g} {design.n.unit}", n_cont)
-    n = max(n_min, math.ceil(n_cont - 1e-7))
-    for _ in range(1000):          # the integer solution is at most a step or two from the root
-        if pw(n) >= target:
-            break
-        n += 1
-    else:
-        raise NoSolution("n", "power does not rise with n near the solution")
-    for _ in range(1000):
-        if n - 1 >= n_min and pw(n - 1) >= target:
+    n = max(n_min, math.ceil(n_cont - 1e-9))
+    for _ in range(200):  # the whole-number answer is within a step or two of the root
+        cand = np.arange(max(n_min, n - 1), n + 1, dtype=float)
+        powers = pw(cand)
+        if powers[-1] < target:
+            n += 1
+        elif cand.size == 2 and powers[0] >= target:
             n -= 1
         else:
-            break
-    return _make_sample_size(design, p, n, n_min, pw, target, n, None)
+            below = (int(cand[0]), float(powers[0])) if cand.size == 2 else None
+            return _make_sample_size(design, p, n, float(powers[-1]), below, target, n, None, n_cont)
+    raise NoSolution("n", "power does not rise steadily with n near the solution")
 
 
 def _exact_sample_size(design, p, alpha, direction, target, n_min, guess) -> SampleSize:
@@ -125,23 +125,22 @@ def _exact_sample_size(design, p, alpha, direction, target, n_min, guess) -> Sam
         raise NoSolution("n", f"the exact search stops at {EXACT_SCAN_LIMIT:g} {design.n.unit}; "
                               "use the normal approximation for effects this small")
     horizon = 2 * first + 100
-    ns = np.arange(first, horizon + 1, dtype=float)
-    below = np.nonzero(power_at(design, p, ns, alpha, direction) < target)[0]
-    stays = first if below.size == 0 else int(ns[below[-1]]) + 1
+    ns = np.arange(max(n_min, first - 1), horizon + 1, dtype=float)
+    powers = power_at(design, p, ns, alpha, direction)
+    at = int(np.nonzero(ns == first)[0][0])
+    below_mask = np.nonzero(powers[at:] < target)[0]
+    stays = first if below_mask.size == 0 else int(ns[at + below_mask[-1]]) + 1
+    below = (first - 1, float(powers[at - 1])) if at > 0 else None
+    return _make_sample_size(design, p, first, float(powers[at]), below, target, stays, horizon)
 
-    def pw(n, integer=True):
-        return float(power_at(design, p, n, alpha, direction))
 
-    return _make_sample_size(design, p, first, n_min, pw, target, stays, horizon)
-
-
-def _make_sample_size(design, p, n, n_min, pw, target, stays, horizon) -> SampleSize:
+def _make_sample_size(design, p, n, power_n, below, target, stays, horizon, n_cont=None) -> SampleSize:
     sizes = tuple(int(round(float(s))) for s in design.group_sizes(p, n, integer=True))
-    below = n - 1 if n - 1 >= n_min else None
-    return SampleSize(n=int(n), power=pw(n), n_below=below,
-                      power_below=None if below is None else pw(below),
+    return SampleSize(n=int(n), power=power_n, n_below=None if below is None else below[0],
+                      power_below=None if below is None else below[1],
                       group_sizes=sizes, total=int(sum(sizes)), target=target,
-                      stays_from=int(stays), checked_to=horizon)
+                      stays_from=int(stays), checked_to=horizon,
+                      n_continuous=None if n_cont is None else float(n_cont))
 
 
 # ---- smallest detectable effect -----------------------------------------------
@@ -156,15 +155,21 @@ def detectable_effect(design: Design, p: dict, n: int, alpha: float, direction: 
     lo_b, hi_b = design.effect_bounds(p)
     out: dict[str, float | None] = {"upper": None, "lower": None}
     scale = design.effect_scale(p)
+    probe = 1e-3 * scale   # noncentrality is close to linear in a small effect
+    st1 = design.statistic({**p, design.effect: probe}, design.group_sizes(p, n, integer=True))
+    nc1 = abs(float(np.asarray(st1.noncentrality)))
+    a = alpha / 2 if direction == "two-sided" else alpha
+    guess = probe * (-ndtri(a) + ndtri(target)) / nc1 if nc1 > 0 and math.isfinite(nc1) else scale
     for side in sides:
         sign = 1.0 if side == "upper" else -1.0
         bound = hi_b if side == "upper" else -lo_b
         edge = bound - max(1e-9, 1e-9 * abs(bound)) if math.isfinite(bound) else math.inf
 
         def f(m, sign=sign):
-            return float(power_at(design, {**p, design.effect: sign * m}, n, alpha, direction))
+            return power_at(design, {**p, design.effect: sign * m}, n, alpha, direction)
 
-        m = solve_increasing(f, target, 0.0, edge, field="effect", start=scale * 0.5,
+        m = solve_increasing(f, target, 0.0, edge, field="effect",
+                             start=min(guess, 0.5 * edge) if math.isfinite(edge) else guess,
                              what=f"the target power on the {side} side", xtol=1e-12 * max(scale, 1e-3))
         out[side] = sign * m
     return out
@@ -176,9 +181,10 @@ def significance_level(design: Design, p: dict, n: int, direction: str, target: 
     lo, hi = (float(logit(a)) for a in ALPHA_RANGE)
 
     def f(u):
-        return float(power_at(design, p, n, float(expit(u)), direction))
+        return power_at(design, p, n, expit(u), direction)
 
-    u = solve_increasing(f, target, lo, hi, field="alpha", what="the target power", xtol=1e-10)
+    u = solve_increasing(f, target, lo, hi, field="alpha", start=float(logit(0.05)),
+                         what="the target power", xtol=1e-10)
     return float(expit(u))
 
 

@@ -24,7 +24,8 @@ class SampleSize:
     """The smallest n reaching the target power, with the power at n and at n − 1.
 
     For exact discrete tests ``stays_from`` is the n from which power stays at or
-    above the target (checked up to ``checked_to``); elsewhere it equals ``n``.
+    above the target (checked up to ``checked_to``); elsewhere it equals ``n``, and
+    ``n_continuous`` is the real-valued n at which power equals the target exactly.
     """
 
     n: int
@@ -36,6 +37,7 @@ class SampleSize:
     target: float
     stays_from: int
     checked_to: int | None = None
+    n_continuous: float | None = None   # the real-valued root, for continuous designs
 
 
 @dataclass(frozen=True)
