@@ -9,9 +9,10 @@ import json
 import sys
 from typing import Any, Sequence
 
-from .design import designs, get_design
+from .design import designs
 from .engine import evaluate
 from .errors import InvalidParameter, NoSolution, RecordError
+from .record import make_record, read_record
 from .scenario import DIRECTIONS, FINDS, Scenario
 
 __all__ = ["main", "scenario_from_args"]
@@ -41,15 +42,7 @@ def scenario_from_args(args: argparse.Namespace) -> Scenario:
     data: dict[str, Any] = {}
     if args.json is not None or args.file is not None:
         text = args.json if args.json is not None else _read(args.file)
-        try:
-            data = json.loads(text)
-        except json.JSONDecodeError as e:
-            raise RecordError("json", f"is not valid JSON ({e.msg} at line {e.lineno} column {e.colno})") from None
-        if isinstance(data, dict) and "assumptions" in data:  # a full record: take its scenario
-            data = data["assumptions"]
-        if not isinstance(data, dict):
-            raise RecordError("json", "must be a JSON object")
-        data = dict(data)
+        data = read_record(text).to_dict()   # a bare scenario or a whole record
     for key in ("design", "find", "direction", "alpha", "target_power", "n"):
         value = getattr(args, key)
         if value is not None:
@@ -76,8 +69,9 @@ def _text(result) -> str:
     lines = [f"{result.design_title}",
              f"  power {result.power:.4f} (β = {result.beta:.4f}) at α = {result.alpha:.4g}, "
              f"{result.solved.direction}",
-             f"  n = {result.n} {result.n_unit}; groups {list(result.group_sizes)}, total {result.total} "
-             f"{result.total_unit}",
+             f"  n = {result.n} {result.n_unit}"
+             + (f"; groups {list(result.group_sizes)}, total {result.total} {result.total_unit}"
+                if len(result.group_sizes) > 1 else ""),
              f"  effect {result.effect:.6g} (standardized {result.standardized_name} = "
              f"{result.standardized_effect:.4g})"]
     ss = result.sample_size
@@ -132,6 +126,23 @@ def _batch(stream, out) -> int:
     return 0 if failures == 0 else 1
 
 
+def _cmd_record(args) -> int:
+    try:
+        scenario = scenario_from_args(args)
+        record = make_record(scenario, curves=not args.no_curves)
+    except (InvalidParameter, NoSolution, RecordError) as e:
+        print(f"powerlens: {e}", file=sys.stderr)
+        return 2
+    text = json.dumps(record, ensure_ascii=False, indent=1) + "\n"
+    if args.out:
+        with open(args.out, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        print(f"wrote {args.out}", file=sys.stderr)
+    else:
+        sys.stdout.write(text)
+    return 0
+
+
 def _cmd_designs(args) -> int:
     for d in designs():
         print(f"{d.id:26s} {d.title}")
@@ -156,11 +167,7 @@ def _cmd_serve(args) -> int:
     return server.run(args)
 
 
-def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(prog="powerlens", description="Plan the size of a study.")
-    sub = parser.add_subparsers(dest="command", required=True)
-
-    c = sub.add_parser("compute", help="evaluate one scenario (flags or JSON), or a JSON Lines batch")
+def _scenario_flags(c: argparse.ArgumentParser) -> None:
     c.add_argument("--design", choices=[d.id for d in designs()])
     c.add_argument("--find", choices=FINDS)
     c.add_argument("--direction", choices=DIRECTIONS)
@@ -168,12 +175,26 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--target-power", dest="target_power", type=float)
     c.add_argument("--n", type=int, help="sample size in the design's unit (see `powerlens designs`)")
     c.add_argument("-p", "--param", action="append", metavar="NAME=VALUE", help="a design parameter")
-    c.add_argument("--json", help="a scenario (or a whole record) as a JSON string")
+    c.add_argument("--json", help="a scenario or a whole assumptions record, as a JSON string")
     c.add_argument("--file", help="read the scenario or record from this JSON file ('-' for stdin)")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="powerlens", description="Plan the size of a study.")
+    sub = parser.add_subparsers(dest="command", required=True)
+
+    c = sub.add_parser("compute", help="evaluate one scenario (flags, JSON or a record), or a JSON Lines batch")
+    _scenario_flags(c)
     c.add_argument("--batch", action="store_true",
                    help="read one scenario per line (JSON Lines) from stdin, write one result per line")
     c.add_argument("--text", action="store_true", help="print a readable summary instead of JSON")
     c.set_defaults(func=_cmd_compute)
+
+    r = sub.add_parser("record", help="write the assumptions record (JSON) of a scenario")
+    _scenario_flags(r)
+    r.add_argument("--out", help="write to this file instead of standard output")
+    r.add_argument("--no-curves", action="store_true", help="leave the curve data out")
+    r.set_defaults(func=_cmd_record)
 
     sub.add_parser("designs", help="list the designs and their parameters").set_defaults(func=_cmd_designs)
     sub.add_parser("example", help="print a worked example").set_defaults(func=_cmd_example)
@@ -190,7 +211,11 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     args = build_parser().parse_args(argv)
-    return args.func(args)
+    try:
+        return args.func(args)
+    except BrokenPipeError:  # output piped into `head` and the like
+        sys.stderr.close()
+        return 0
 
 
 if __name__ == "__main__":

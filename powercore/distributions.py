@@ -223,19 +223,22 @@ class Binomial:
 
     def __init__(self, n, p):
         self.n, self.p = _arr(n), _arr(p)
+        self._n_int = np.rint(self.n).astype(np.int64)   # scipy wants whole trial counts as integers
 
     def pdf(self, k):
         """Probability mass at the integers ``k``."""
         return stats.binom.pmf(k, self.n, self.p)
 
     def cdf(self, k):
-        k, n, p = np.broadcast_arrays(np.floor(_arr(k)), self.n, self.p)
-        return np.where(k < 0, 0.0, np.where(k >= n, 1.0, special.bdtr(np.clip(k, 0, n), n, p)))
+        k, n, p = np.broadcast_arrays(np.floor(_arr(k)), self._n_int, self.p)
+        kk = np.clip(k, 0, n).astype(np.int64)
+        return np.where(k < 0, 0.0, np.where(k >= n, 1.0, special.bdtr(kk, n, p)))
 
     def sf(self, k):
         """``P(X > k)``."""
-        k, n, p = np.broadcast_arrays(np.floor(_arr(k)), self.n, self.p)
-        return np.where(k < 0, 1.0, np.where(k >= n, 0.0, special.bdtrc(np.clip(k, 0, n), n, p)))
+        k, n, p = np.broadcast_arrays(np.floor(_arr(k)), self._n_int, self.p)
+        kk = np.clip(k, 0, n).astype(np.int64)
+        return np.where(k < 0, 1.0, np.where(k >= n, 0.0, special.bdtrc(kk, n, p)))
 
     def tail_upper(self, c):
         return self.sf(_arr(c) - 1)

@@ -75,7 +75,10 @@ def _n_guess(d: Design, p: dict, alpha: float, direction: str, target: float, n0
     need = -ndtri(a) + ndtri(target)
     if not math.isfinite(nc) or nc == 0:
         return float(n0) * 4
-    return max(float(n0), n0 * (need / nc) ** 2)
+    ratio = need / nc
+    if ratio > 1e6:
+        return float(N_MAX)
+    return max(float(n0), n0 * ratio * ratio)
 
 
 def sample_size(design: Design, p: dict, alpha: float, direction: str, target: float) -> SampleSize:

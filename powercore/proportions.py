@@ -87,9 +87,10 @@ class OneProportionExact(_OneProportion):
     id = "proportion-exact"
     title = "One proportion (exact binomial test)"
     statistic_symbol = "x"
-    test = "exact binomial test; two-sided tests put at most α/2 in each tail"
+    test = "exact binomial test"
     method = "exact: binomial distribution of the number of successes"
-    notes = ("Power of an exact test is a saw-tooth in n: a larger n can have lower power. The sample "
+    notes = ("A two-sided exact test here puts at most α/2 in each tail.",
+             "Power of an exact test is a saw-tooth in n: a larger n can have lower power. The sample "
              "size reports the first n that reaches the target and the n from which it stays there.",
              "The actual size of the test is at most α, often well below it.")
     discrete = True

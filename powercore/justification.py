@@ -1,0 +1,68 @@
+"""The plain-language sample-size justification, built only from a result's numbers.
+
+It covers what reporting guidelines ask of a sample-size statement (SPIRIT 2013
+item 14, CONSORT 2010 item 7a, DELTA2): the significance level and sidedness,
+the power, the target difference in data units and standardized with the spread
+it assumes, the allocation, the allowance for dropout, the resulting n per group
+and in total, the method, and the software with its version.
+"""
+from __future__ import annotations
+
+from .design import get_design
+from .result import Result
+
+__all__ = ["CAUTIONS", "justification"]
+
+CAUTIONS = (
+    "A study plan that affects people, such as a clinical trial, needs a qualified statistician; "
+    "local regulations, ethics committees and reporting rules prevail over this tool.",
+    "Do not compute 'observed power' from the effect observed in the same study: it is a restatement "
+    "of the p-value and adds nothing (Hoenig and Heisey 2001).",
+    "Power rests on the assumed effect and spread; show how the sample size moves when they are wrong.",
+)
+
+_SIDES = {"two-sided": "two-sided", "upper": "one-sided (upper alternative)",
+          "lower": "one-sided (lower alternative)"}
+
+
+def _g(x: float, digits: int = 4) -> str:
+    return f"{x:.{digits}g}"
+
+
+def justification(result: Result, version: str) -> str:
+    """One paragraph, every number taken from ``result``."""
+    d = get_design(result.scenario.design)
+    s = result.solved
+    p = dict(s.params)
+    spread = [f"{spec.label} of {_g(p[spec.name])}" for spec in d.params
+              if spec.unit == "data units" and spec.name not in (d.effect, "mu0")]
+    refs = [f"{spec.label} of {_g(p[spec.name])}" for spec in d.params
+            if spec.unit in ("proportion", "correlation") and spec.name != d.effect]
+    assumed = spread + refs
+    effect = (f"a {d.effect_label} of {_g(result.effect)} ({d.param(d.effect).unit}), "
+              f"a standardized effect {d.standardized_name} = {_g(result.standardized_effect)}")
+    if assumed:
+        effect += ", assuming " + " and ".join(assumed)
+    if len(result.group_sizes) > 1:
+        ratio = p.get("ratio", 1.0)
+        alloc = (f"Allocation is {_g(ratio)} : 1 (group 2 : group 1), giving "
+                 f"{result.group_sizes[0]} in group 1 and {result.group_sizes[1]} in group 2, "
+                 f"{result.total} {result.total_unit} in total.")
+    else:
+        alloc = f"This gives {result.n} {result.n_unit} in total."
+    ss = result.sample_size
+    if s.find == "n" and ss is not None:
+        opening = (f"A sample size of {result.n} {result.n_unit} gives a power of {_g(ss.power, 3)} "
+                   f"(target {_g(ss.target, 3)}; {_g(ss.power_below, 3)} with one fewer)"
+                   if ss.power_below is not None else
+                   f"A sample size of {result.n} {result.n_unit} gives a power of {_g(ss.power, 3)} "
+                   f"(target {_g(ss.target, 3)})")
+    else:
+        opening = f"With {result.n} {result.n_unit} the power is {_g(result.power, 3)}"
+    if ss is not None and ss.stays_from != ss.n:
+        alloc += (f" Because the exact test's power is a saw-tooth in n, power stays at or above the target "
+                  f"from {ss.stays_from} {result.n_unit} (checked up to {ss.checked_to}).")
+    return (f"{opening} to detect {effect}, with a {_SIDES[s.direction]} {d.test} at significance "
+            f"level α = {_g(result.alpha)}. {alloc} No allowance for dropout or loss to follow-up is "
+            f"included; enrol more to allow for it. Method: {d.method}. Computed with Powerlens "
+            f"{version} (design '{d.id}').")

@@ -1,0 +1,120 @@
+"""The assumptions record: building, reading back, verifying, and refusing bad input by field."""
+from __future__ import annotations
+
+import json
+
+import jsonschema
+import pytest
+from hypothesis import HealthCheck, assume, given, settings
+from hypothesis import strategies as st
+
+import powercore as pc
+from powercore.record import MAX_RECORD_BYTES, make_record, read_record, verify_record
+from powercore.schema import RECORD_SCHEMA_PATH, record_schema, scenario_schema
+
+FAST = [d.id for d in pc.designs() if d.id != "correlation-exact"]  # the exact design integrates numerically
+
+
+@st.composite
+def scenarios(draw):
+    """Valid scenarios of the fast designs, drawn over each parameter's slider range."""
+    d = pc.get_design(draw(st.sampled_from(FAST)))
+    params = {}
+    for spec in d.params:
+        if spec.kind == "bool":
+            params[spec.name] = draw(st.booleans())
+        else:
+            params[spec.name] = draw(st.floats(*spec.soft, allow_nan=False))
+    find = draw(st.sampled_from(["power", "n", "effect", "alpha"]))
+    data = {"design": d.id, "params": params, "find": find,
+            "direction": draw(st.sampled_from(["two-sided", "upper", "lower"])),
+            "alpha": draw(st.sampled_from([0.001, 0.01, 0.05, 0.1])),
+            "target_power": draw(st.sampled_from([0.8, 0.9, 0.95])),
+            "n": draw(st.integers(*d.n.soft))}
+    try:
+        sc = pc.Scenario.from_dict(data)
+        pc.evaluate(sc)
+    except ValueError:
+        assume(False)
+    return sc
+
+
+def _validate(record):
+    from referencing import Registry, Resource
+    reg = Registry().with_resource(scenario_schema()["$id"], Resource.from_contents(scenario_schema()))
+    jsonschema.Draft202012Validator(record_schema(), registry=reg).validate(record)
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.filter_too_much,
+                                                                 HealthCheck.too_slow])
+@given(scenarios())
+def test_record_round_trip_is_lossless(sc):
+    """scenario → record → JSON → scenario is identical, and recomputing gives the stored numbers."""
+    record = make_record(sc, curves=False)
+    back = json.loads(json.dumps(record))
+    assert read_record(back) == sc
+    assert verify_record(back) == {}
+
+
+def test_committed_record_schema_is_generated():
+    """The record schema file is what `python -m powercore.schema` writes."""
+    assert json.loads(RECORD_SCHEMA_PATH.read_text(encoding="utf-8")) == record_schema()
+
+
+@pytest.mark.parametrize("design", [d.id for d in pc.designs()])
+def test_every_design_makes_a_schema_valid_record(design):
+    """Each design's record, curves included, validates against the record schema."""
+    d = pc.get_design(design)
+    record = make_record(pc.Scenario(design, n=d.n.default))
+    _validate(json.loads(json.dumps(record)))
+    assert record["curves"]["power_vs_n"]["x"][0] == d.min_n(d.defaults())
+
+
+def test_record_carries_versions_cautions_and_justification():
+    """The record names the software versions, carries the cautions and a justification with its n."""
+    rec = make_record(pc.Scenario("two-means-t", {"delta": 4.0, "sd": 9.0}, find="n", target_power=0.9))
+    assert set(rec["software"]) == {"powerlens", "python", "numpy", "scipy"}
+    assert any("statistician" in c for c in rec["cautions"])
+    assert any("observed power" in c for c in rec["cautions"])
+    n, total = rec["results"]["n"], rec["results"]["total"]
+    assert f"{n} in group 1" in rec["justification"] and f"{total} subjects" in rec["justification"]
+    assert rec["software"]["powerlens"] in rec["justification"]
+
+
+def test_tampered_record_is_caught_by_verify():
+    """A record whose stored power was edited no longer verifies, and the field is named."""
+    rec = make_record(pc.Scenario("mean-z", n=20), curves=False)
+    rec["results"]["power"] = 0.99
+    assert "power" in verify_record(rec)
+
+
+@pytest.mark.parametrize("text, field", [
+    ("{", "json"),
+    ("[1, 2]", "record"),
+    ('{"assumptions": {"design": "mean-z", "alpha": NaN}, "schema_version": 1}', "json"),
+    ('{"assumptions": {"design": "mean-z", "n": Infinity}, "schema_version": 1}', "json"),
+    ('{"assumptions": {"design": "mean-z", "n": "x"}, "schema_version": 1}', "assumptions.n"),
+    ('{"assumptions": {"design": "mean-z", "n": 20}, "schema_version": 2}', "schema_version"),
+    ('{"assumptions": {"design": "mean-z", "n": 20}, "schema_version": "1"}', "schema_version"),
+    ('{"assumptions": {"design": "mean-z", "n": 20}, "schema_version": 1, "colour": 3}', "colour"),
+    ('{"assumptions": {"design": "mean-z", "n": 20, "extra": 1}, "schema_version": 1}', "assumptions.extra"),
+    ('{"assumptions": {"design": "mean-z", "params": {"sd": -1}, "n": 20}, "schema_version": 1}',
+     "assumptions.sd"),
+    ('{"assumptions": [], "schema_version": 1}', "assumptions"),
+    ('{"assumptions": {"design": "mean-z", "n": 1e400}, "schema_version": 1}', "assumptions.n"),
+    ("[" * 3000 + "]" * 3000, "json"),
+    ('{"a":' * 20 + "1" + "}" * 20, "record"),
+])
+def test_malformed_records_name_the_field(text, field):
+    """Each malformed record is refused with a RecordError naming the field at fault."""
+    with pytest.raises(pc.RecordError) as info:
+        read_record(text)
+    assert info.value.field == field
+
+
+def test_oversized_record_is_refused_before_parsing():
+    """A file larger than the limit is refused by size, whatever it holds."""
+    blob = b'{"assumptions": {}, "pad": "' + b"x" * (MAX_RECORD_BYTES + 10) + b'"}'
+    with pytest.raises(pc.RecordError) as info:
+        read_record(blob)
+    assert info.value.field == "file"
