@@ -64,6 +64,7 @@ class Design:
     statistic_symbol: str = "z"
     estimate_label: str = "estimate"
     n: NSpec = NSpec("observations", "observations", 2, 30, (2, 200), "number of observations")
+    directions: tuple[str, ...] = ("two-sided", "upper", "lower")   # alternatives the test offers
     discrete: bool = False       # exact discrete test: power is a saw-tooth in n
     conservative: bool = False   # size at most alpha rather than exactly alpha
 

@@ -9,6 +9,7 @@ import math
 import numpy as np
 from scipy.special import expit, logit, ndtri
 
+from . import adjust
 from .design import Design, fmt, get_design
 from .errors import NoSolution
 from .result import Result, SampleSize, Step
@@ -193,11 +194,17 @@ def significance_level(design: Design, p: dict, n: int, direction: str, target: 
 
 # ---- evaluate -----------------------------------------------------------------
 def evaluate(scenario: Scenario) -> Result:
-    """Find the scenario's unknown, then compute power, critical region and the working there."""
+    """Find the scenario's unknown, then compute power, critical region and the working there.
+
+    Every test runs at the per-test level that the multiplicity adjustment gives
+    from the scenario's (familywise) α.
+    """
     d = get_design(scenario.design)
     p = dict(scenario.params)
+    adj = scenario.adjustments
     find, direction, target = scenario.find, scenario.direction, scenario.target_power
-    alpha, n = scenario.alpha, scenario.n
+    n = scenario.n
+    alpha = None if scenario.alpha is None else adjust.test_alpha(scenario.alpha, adj)
     messages: dict[str, str] = {}
     ss = None
 
@@ -212,8 +219,9 @@ def evaluate(scenario: Scenario) -> Result:
         p[d.effect] = det[side]
     elif find == "alpha":
         alpha = significance_level(d, p, n, direction, target)
+    alpha_fw = adjust.familywise_alpha(alpha, adj) if find == "alpha" else scenario.alpha
 
-    solved = scenario.replace(n=n, alpha=alpha, params={d.effect: p[d.effect]})
+    solved = scenario.replace(n=n, alpha=alpha_fw, params={d.effect: p[d.effect]})
     if ss is None and find != "effect":
         try:
             ss = sample_size(d, p, alpha, direction, target) if alpha < target else None
@@ -281,9 +289,21 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
     working += [Step(label, text) for label, text in ex.extra]
     if d.conservative_at(p):
         working.append(Step("actual size", f"P(reject H0 | H0) = {fmt(size, 6)} ≤ α", size))
+    adj = scenario.adjustments
+    if adj["multiplicity"] != "none" and adj["comparisons"] > 1:
+        rule = "α/m" if adj["multiplicity"] == "bonferroni" else "1 − (1 − α)^(1/m)"
+        working.insert(2, Step("multiplicity", f"{adj['comparisons']} tests, {adj['multiplicity']}: each test at "
+                               f"{rule} = {fmt(alpha, 6)} for familywise α = {fmt(solved.alpha)}", alpha))
+    enrolled = adjust.enrolled(int_sizes, adj["dropout"])
+    if adj["dropout"] > 0:
+        working.append(Step("dropout allowance", f"expected dropout {fmt(adj['dropout'])}: enrol "
+                            f"ceil(n/(1 − {fmt(adj['dropout'])})) per group = "
+                            f"{' + '.join(str(e) for e in enrolled)} = {sum(enrolled)} to analyse "
+                            f"{' + '.join(str(g) for g in int_sizes)} = {sum(int_sizes)}", float(sum(enrolled))))
     return Result(
         scenario=scenario, solved=solved, design_title=d.title, power=pw, n=int(n), n_unit=d.n.unit,
-        group_sizes=int_sizes, total=int(sum(int_sizes)), total_unit=d.n.total_unit, alpha=float(alpha),
+        group_sizes=int_sizes, total=int(sum(int_sizes)), total_unit=d.n.total_unit, alpha=float(solved.alpha),
+        alpha_test=float(alpha), enrolled_sizes=enrolled, enrolled_total=int(sum(enrolled)),
         effect=eff, standardized_effect=std, standardized_name=d.standardized_name, se=float(st.se),
         noncentrality=float(st.noncentrality),
         critical={"statistic": (stat_lo, stat_hi), "data": (data_lo, data_hi)}, size=size,

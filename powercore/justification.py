@@ -62,7 +62,16 @@ def justification(result: Result, version: str) -> str:
     if ss is not None and ss.stays_from != ss.n:
         alloc += (f" Because the exact test's power is a saw-tooth in n, power stays at or above the target "
                   f"from {ss.stays_from} {result.n_unit} (checked up to {ss.checked_to}).")
-    return (f"{opening} to detect {effect}, with a {_SIDES[s.direction]} {d.test} at significance "
-            f"level α = {_g(result.alpha)}. {alloc} No allowance for dropout or loss to follow-up is "
-            f"included; enrol more to allow for it. Method: {d.method}. Computed with Powerlens "
-            f"{version} (design '{d.id}').")
+    adj = s.adjustments
+    level = f"significance level α = {_g(result.alpha)}"
+    if adj["multiplicity"] != "none" and adj["comparisons"] > 1:
+        level = (f"a familywise significance level α = {_g(result.alpha)} shared over {adj['comparisons']} "
+                 f"tests ({adj['multiplicity']} adjustment: each test at {_g(result.alpha_test)})")
+    if adj["dropout"] > 0:
+        drop = (f"Allowing for {_g(100 * adj['dropout'])}% dropout, "
+                f"{' and '.join(str(e) for e in result.enrolled_sizes)} are to be enrolled "
+                f"({result.enrolled_total} in total) so that {result.total} remain for analysis.")
+    else:
+        drop = "No allowance for dropout or loss to follow-up is included; enrol more to allow for it."
+    return (f"{opening} to detect {effect}, with a {_SIDES[s.direction]} {d.test} at {level}. {alloc} "
+            f"{drop} Method: {d.method}. Computed with Powerlens {version} (design '{d.id}').")

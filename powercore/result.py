@@ -49,6 +49,9 @@ class Result:
     where a side does not reject); ``detectable`` the smallest detectable effect
     on each side at the current n; ``size`` the probability of rejecting when
     the null hypothesis holds (α, or less for exact and corrected tests).
+    ``alpha`` is the familywise level of the scenario and ``alpha_test`` the level
+    of each test after the multiplicity adjustment; ``group_sizes`` are analysed
+    and ``enrolled_sizes`` enrolled (after the dropout allowance).
     """
 
     scenario: Scenario
@@ -61,6 +64,9 @@ class Result:
     total: int
     total_unit: str
     alpha: float
+    alpha_test: float
+    enrolled_sizes: tuple[int, ...]
+    enrolled_total: int
     effect: float
     standardized_effect: float
     standardized_name: str
@@ -93,6 +99,9 @@ class Result:
             "total": self.total,
             "total_unit": self.total_unit,
             "alpha": self.alpha,
+            "alpha_test": self.alpha_test,
+            "enrolled_sizes": list(self.enrolled_sizes),
+            "enrolled_total": self.enrolled_total,
             "effect": self.effect,
             "standardized_effect": self.standardized_effect,
             "standardized_name": self.standardized_name,

@@ -6,6 +6,7 @@ import types
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
+from . import adjust
 from .design import get_design
 from .errors import InvalidParameter, RecordError
 
@@ -15,7 +16,7 @@ SCHEMA_VERSION = 1
 DIRECTIONS = ("two-sided", "upper", "lower")
 FINDS = ("power", "n", "effect", "alpha")
 N_MAX = 10**9
-_KEYS = ("design", "find", "direction", "alpha", "target_power", "n", "params")
+_KEYS = ("design", "find", "direction", "alpha", "target_power", "n", "params", "adjustments")
 
 
 @dataclass(frozen=True)
@@ -25,7 +26,9 @@ class Scenario:
     ``find`` names the unknown: ``"power"``, ``"n"`` (sample size), ``"effect"``
     (smallest detectable effect) or ``"alpha"`` (significance level). The unknown
     may be left as ``None``; every other value is checked against its domain.
-    Missing design parameters take the design's defaults.
+    Missing design parameters take the design's defaults. ``adjustments`` holds
+    the dropout allowance and the split of α over several tests (see
+    :mod:`powercore.adjust`); α is then the familywise level.
     """
 
     design: str
@@ -35,6 +38,7 @@ class Scenario:
     direction: str = "two-sided"
     find: str = "power"
     target_power: float = 0.8
+    adjustments: Mapping[str, Any] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         d = get_design(self.design)
@@ -49,6 +53,9 @@ class Scenario:
             raise InvalidParameter("find", f"must be one of {list(FINDS)}", self.find)
         if self.direction not in DIRECTIONS:
             raise InvalidParameter("direction", f"must be one of {list(DIRECTIONS)}", self.direction)
+        if self.direction not in d.directions:
+            raise InvalidParameter("direction", f"must be one of {list(d.directions)} for design {d.id}",
+                                   self.direction)
         params: dict[str, Any] = {}
         for spec in d.params:
             value = self.params.get(spec.name, spec.default)
@@ -75,13 +82,14 @@ class Scenario:
             if n > N_MAX:
                 raise InvalidParameter("n", f"must be at most {N_MAX:g}", n)
         object.__setattr__(self, "n", n)
+        object.__setattr__(self, "adjustments", types.MappingProxyType(adjust.validate(self.adjustments)))
 
     # ---- conversion -------------------------------------------------------
     def to_dict(self) -> dict[str, Any]:
         """A plain, JSON-ready dict; ``Scenario.from_dict`` of it gives this scenario back."""
         return {"design": self.design, "find": self.find, "direction": self.direction,
                 "alpha": self.alpha, "target_power": self.target_power, "n": self.n,
-                "params": dict(self.params)}
+                "params": dict(self.params), "adjustments": dict(self.adjustments)}
 
     @classmethod
     def from_dict(cls, data: Any) -> "Scenario":
@@ -103,6 +111,8 @@ class Scenario:
         """A copy with some fields changed; ``params`` given here are merged into the current ones."""
         if "params" in changes:
             changes["params"] = {**self.params, **changes["params"]}
+        if "adjustments" in changes:
+            changes["adjustments"] = {**self.adjustments, **changes["adjustments"]}
         return replace(self, **changes)
 
 

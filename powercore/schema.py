@@ -62,6 +62,14 @@ def scenario_schema() -> dict:
             "target_power": {"type": "number", "exclusiveMinimum": 0, "exclusiveMaximum": 1},
             "n": {"anyOf": [{"type": "integer", "minimum": 1}, {"type": "null"}]},
             "params": {"type": "object"},
+            "adjustments": {
+                "type": "object", "additionalProperties": False,
+                "properties": {
+                    "dropout": {"type": "number", "minimum": 0, "exclusiveMaximum": 1,
+                                "description": "expected proportion lost; each group enrolled as n/(1 − dropout)"},
+                    "comparisons": {"type": "integer", "minimum": 1, "maximum": 10000,
+                                    "description": "number of tests sharing the familywise α"},
+                    "multiplicity": {"enum": ["none", "bonferroni", "sidak"]}}},
         },
         "allOf": per_design,
     }

@@ -30,7 +30,10 @@ def scenarios(draw):
             "direction": draw(st.sampled_from(["two-sided", "upper", "lower"])),
             "alpha": draw(st.sampled_from([0.001, 0.01, 0.05, 0.1])),
             "target_power": draw(st.sampled_from([0.8, 0.9, 0.95])),
-            "n": draw(st.integers(*d.n.soft))}
+            "n": draw(st.integers(*d.n.soft)),
+            "adjustments": {"dropout": draw(st.sampled_from([0.0, 0.1, 0.33])),
+                            "comparisons": draw(st.integers(1, 5)),
+                            "multiplicity": draw(st.sampled_from(["none", "bonferroni", "sidak"]))}}
     try:
         sc = pc.Scenario.from_dict(data)
         pc.evaluate(sc)
@@ -79,6 +82,45 @@ def test_record_carries_versions_cautions_and_justification():
     n, total = rec["results"]["n"], rec["results"]["total"]
     assert f"{n} in group 1" in rec["justification"] and f"{total} subjects" in rec["justification"]
     assert rec["software"]["powerlens"] in rec["justification"]
+
+
+@pytest.mark.parametrize("how, m, expected", [
+    ("bonferroni", 4, 0.05 / 4),                        # Bonferroni: α/m, common practice, no source
+    ("sidak", 4, 1 - (1 - 0.05) ** (1 / 4)),            # Šidák: 1 − (1 − α)^(1/m), common practice, no source
+    ("none", 4, 0.05),
+])
+def test_multiplicity_sets_the_per_test_level(how, m, expected):
+    """Each test runs at the adjusted level, and the result reports both levels."""
+    r = pc.evaluate(pc.Scenario("mean-z", n=30, adjustments={"comparisons": m, "multiplicity": how}))
+    assert r.alpha == 0.05 and r.alpha_test == pytest.approx(expected, rel=1e-12)
+    unadjusted = pc.evaluate(pc.Scenario("mean-z", n=30, alpha=expected))
+    assert r.power == pytest.approx(unadjusted.power, rel=1e-12)
+
+
+def test_dropout_enrols_each_group_rounded_up():
+    """Enrolment is ceil(n/(1 − dropout)) per group, and the record shows analysed and enrolled n."""
+    sc = pc.Scenario("two-means-t", {"delta": 4.0, "sd": 9.0, "ratio": 1.5}, n=41, adjustments={"dropout": 0.2})
+    r = pc.evaluate(sc)
+    assert r.group_sizes == (41, 62)                     # 1.5 × 41 = 61.5, rounded up
+    assert r.enrolled_sizes == (52, 78)                  # ceil(41/0.8) = 52, ceil(62/0.8) = 78
+    rec = make_record(sc, curves=False)
+    assert rec["results"]["enrolled_total"] == 130 and rec["results"]["total"] == 103
+    assert "20% dropout" in rec["justification"]
+
+
+@pytest.mark.parametrize("adj, field", [
+    ({"dropout": 1.0}, "adjustments.dropout"),
+    ({"dropout": -0.1}, "adjustments.dropout"),
+    ({"comparisons": 0}, "adjustments.comparisons"),
+    ({"comparisons": 2.5}, "adjustments.comparisons"),
+    ({"multiplicity": "holm-ish"}, "adjustments.multiplicity"),
+    ({"attrition": 0.1}, "adjustments.attrition"),
+])
+def test_bad_adjustments_name_their_field(adj, field):
+    """A bad adjustment is refused with the adjustment's own field name."""
+    with pytest.raises(pc.InvalidParameter) as info:
+        pc.Scenario("mean-z", n=20, adjustments=adj)
+    assert info.value.field == field
 
 
 def test_tampered_record_is_caught_by_verify():
