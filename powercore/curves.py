@@ -47,15 +47,15 @@ def effect_range(result: Result) -> tuple[float, float]:
     """A range of effects that shows the curve rising to near 1 on each tested side."""
     d = get_design(result.scenario.design)
     p = dict(result.solved.params)
-    reach = max(abs(result.effect), *(abs(v) for v in result.detectable.values() if v is not None),
-                d.effect_scale(p) * 0.1)
-    span = 1.6 * reach
-    lo_b, hi_b = d.effect_bounds(p)
     direction = result.solved.direction
-    lo = 0.0 if direction == "upper" else -span
-    hi = 0.0 if direction == "lower" else span
+    lo_b, hi_b = d.effect_bounds(p)
     pad = 1e-6 * (min(hi_b, 1e6) - max(lo_b, -1e6))
-    return max(lo, lo_b + pad), min(hi, hi_b - pad)
+    ends = []
+    for side, e0, sign, _ in d.effect_sides(p, direction):
+        reach = max(abs(result.effect - e0), d.effect_scale(p) * 0.1,
+                    abs(result.detectable[side] - e0) if result.detectable.get(side) is not None else 0.0)
+        ends += [e0, e0 + sign * 1.6 * reach]
+    return float(max(min(ends), lo_b + pad)), float(min(max(ends), hi_b - pad))
 
 
 def n_range(result: Result) -> tuple[int, int]:

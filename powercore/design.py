@@ -83,6 +83,34 @@ class Design:
         spec = self.param(self.effect)
         return spec.low, spec.high
 
+    def null_effect(self, p: dict) -> float:
+        """The effect at the boundary of the null hypothesis (0, or a margin)."""
+        return 0.0
+
+    def effect_sides(self, p: dict, direction: str) -> list[tuple[str, float, float, float]]:
+        """For each side the test detects: (name, null effect, sign, bound of the effect).
+
+        The effect on a side is ``null + sign·m`` for ``m >= 0``, and power rises with ``m``.
+        """
+        lo, hi = self.effect_bounds(p)
+        e0 = self.null_effect(p)
+        names = {"two-sided": ("upper", "lower"), "upper": ("upper",), "lower": ("lower",)}[direction]
+        return [(s, e0, 1.0, hi) if s == "upper" else (s, e0, -1.0, lo) for s in names]
+
+    def alternative_gap(self, p: dict, direction: str) -> str | None:
+        """Why the effect lies where power cannot rise with n (``None`` when it can)."""
+        x, e0 = p[self.effect], self.null_effect(p)
+        where = "at" if x == e0 else ("below" if x < e0 else "above")
+        if x == e0:
+            return f"the effect is {where} its null value {e0:g}, so power stays at α whatever the sample size"
+        if direction == "upper" and x < e0:
+            return f"the effect is {where} its null value {e0:g} but the alternative is upper"
+        if direction == "lower" and x > e0:
+            return f"the effect is {where} its null value {e0:g} but the alternative is lower"
+        return None
+
+    custom_power = None  # a design whose rejection region is not a tail sets this to a method
+
     def check(self, p: dict) -> None:
         """Cross-parameter checks; raise InvalidParameter naming the field."""
         lo, hi = self.effect_bounds(p)

@@ -45,6 +45,8 @@ def _tails(st, lo, hi):
 def power_at(design: Design, p: dict, n, alpha, direction: str, integer: bool = True) -> np.ndarray:
     """Power, vectorised over any of ``p``'s values, ``n`` and ``alpha`` (they broadcast)."""
     sizes = design.group_sizes(p, n, integer)
+    if design.custom_power is not None:
+        return np.maximum(np.minimum(design.custom_power(p, sizes, alpha, direction), 1.0), 0.0)
     st = design.statistic(p, sizes)
     lo, hi = critical_values(st, alpha, direction)
     lower, upper = _tails(st, lo, hi)
@@ -59,13 +61,9 @@ def power(scenario: Scenario) -> float:
 
 # ---- sample size --------------------------------------------------------------
 def _check_effect_for_n(d: Design, p: dict, direction: str) -> None:
-    x = p[d.effect]
-    if x == 0:
-        raise NoSolution("n", "the effect is zero, so power stays at α whatever the sample size", x)
-    if direction == "upper" and x < 0:
-        raise NoSolution("n", "the effect is negative but the alternative is upper; power falls as n grows", x)
-    if direction == "lower" and x > 0:
-        raise NoSolution("n", "the effect is positive but the alternative is lower; power falls as n grows", x)
+    gap = d.alternative_gap(p, direction)
+    if gap is not None:
+        raise NoSolution("n", gap + "; power does not rise with the sample size", p[d.effect])
 
 
 def _n_guess(d: Design, p: dict, alpha: float, direction: str, target: float, n0: int) -> float:
@@ -155,27 +153,26 @@ def detectable_effect(design: Design, p: dict, n: int, alpha: float, direction: 
     Returns ``{"upper": x, "lower": y}``; a side is ``None`` when the direction
     does not test it. Raises NoSolution when a tested side cannot reach the target.
     """
-    sides = {"two-sided": ("upper", "lower"), "upper": ("upper",), "lower": ("lower",)}[direction]
-    lo_b, hi_b = design.effect_bounds(p)
     out: dict[str, float | None] = {"upper": None, "lower": None}
     scale = design.effect_scale(p)
     probe = 1e-3 * scale   # noncentrality is close to linear in a small effect
-    st1 = design.statistic({**p, design.effect: probe}, design.group_sizes(p, n, integer=True))
-    nc1 = abs(float(np.asarray(st1.noncentrality)))
+    sizes = design.group_sizes(p, n, integer=True)
     a = alpha / 2 if direction == "two-sided" else alpha
-    guess = probe * (-ndtri(a) + ndtri(target)) / nc1 if nc1 > 0 and math.isfinite(nc1) else scale
-    for side in sides:
-        sign = 1.0 if side == "upper" else -1.0
-        bound = hi_b if side == "upper" else -lo_b
-        edge = bound - max(1e-9, 1e-9 * abs(bound)) if math.isfinite(bound) else math.inf
+    for side, e0, sign, bound in design.effect_sides(p, direction):
+        nc0 = float(np.asarray(design.statistic({**p, design.effect: e0}, sizes).noncentrality))
+        nc1 = float(np.asarray(design.statistic({**p, design.effect: e0 + sign * probe}, sizes).noncentrality))
+        slope = abs(nc1 - nc0)
+        guess = probe * (-ndtri(a) + ndtri(target)) / slope if slope > 0 and math.isfinite(slope) else scale
+        reach = abs(bound - e0)
+        edge = reach - max(1e-9, 1e-9 * reach) if math.isfinite(reach) else math.inf
 
-        def f(m, sign=sign):
-            return power_at(design, {**p, design.effect: sign * m}, n, alpha, direction)
+        def f(m, e0=e0, sign=sign):
+            return power_at(design, {**p, design.effect: e0 + sign * m}, n, alpha, direction)
 
         m = solve_increasing(f, target, 0.0, edge, field="effect",
                              start=min(guess, 0.5 * edge) if math.isfinite(edge) else guess,
                              what=f"the target power on the {side} side", xtol=1e-12 * max(scale, 1e-3))
-        out[side] = sign * m
+        out[side] = float(e0 + sign * m)
     return out
 
 
@@ -214,8 +211,12 @@ def evaluate(scenario: Scenario) -> Result:
     elif find == "effect":
         det = detectable_effect(d, p, n, alpha, direction, target)
         current = p.get(d.effect)
-        side = "lower" if (det["upper"] is None or (current is not None and current < 0
-                                                     and det["lower"] is not None)) else "upper"
+        sides = d.effect_sides(p if current is not None else {**p, d.effect: 0.0}, direction)
+        side = sides[0][0]
+        for name, e0, sign, _ in sides:   # the side the planner's own effect lies on, if any
+            if current is not None and sign * (current - e0) > 0:
+                side = name
+                break
         p[d.effect] = det[side]
     elif find == "alpha":
         alpha = significance_level(d, p, n, direction, target)
@@ -243,7 +244,7 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
     lo, hi = critical_values(st, alpha, direction)
     lower, upper = _tails(st, lo, hi)
     pw = float(np.clip(lower + upper, 0, 1))
-    size = float(power_at(d, {**p, d.effect: 0.0}, n, alpha, direction))
+    size = float(power_at(d, {**p, d.effect: d.effect_sides(p, direction)[0][1]}, n, alpha, direction))
     ex = d.explain(p, sizes, st)
     s = d.statistic_symbol
     lo_f, hi_f = float(lo), float(hi)
@@ -269,6 +270,16 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
         prob_parts.append(f"P({s} ≥ {fmt(stat_hi)} | H1) = {fmt(float(upper), 6)}")
     if stat_lo is not None:
         prob_parts.append(f"P({s} ≤ {fmt(stat_lo)} | H1) = {fmt(float(lower), 6)}")
+    rejects = "outside"
+    if d.custom_power is not None:   # the rejection region is an interval (equivalence)
+        rejects = "inside"
+        pw = float(power_at(d, p, n, alpha, direction))
+        stat_lo, stat_hi, data_lo, data_hi = (float(v) for v in d.inside_region(p, sizes, alpha))
+
+        def region(lo_v, hi_v, sym):
+            return f"reject H0 if {fmt(lo_v)} ≤ {sym} ≤ {fmt(hi_v)} (the interval is empty if lower > upper)"
+        prob_parts = [f"P({fmt(data_lo)} ≤ {d.estimate_label} ≤ {fmt(data_hi)} | H1), integrated over the "
+                      f"estimated SE = {fmt(pw, 6)}"]
     groups = " + ".join(str(g) for g in int_sizes)
     working = [
         Step("design", f"{d.test}; n = {n} {d.n.unit}"
@@ -306,7 +317,7 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
         alpha_test=float(alpha), enrolled_sizes=enrolled, enrolled_total=int(sum(enrolled)),
         effect=eff, standardized_effect=std, standardized_name=d.standardized_name, se=float(st.se),
         noncentrality=float(st.noncentrality),
-        critical={"statistic": (stat_lo, stat_hi), "data": (data_lo, data_hi)}, size=size,
+        critical={"statistic": (stat_lo, stat_hi), "data": (data_lo, data_hi)}, rejects=rejects, size=size,
         sample_size=ss, detectable=detectable, working=tuple(working), notes=tuple(d.notes) + (d.method,),
         messages=messages)
 

@@ -73,6 +73,7 @@ class Result:
     se: float
     noncentrality: float
     critical: dict[str, tuple[float | None, float | None]]
+    rejects: str          # "outside": reject beyond the critical values; "inside": between them
     size: float
     sample_size: SampleSize | None
     detectable: dict[str, float | None]
@@ -108,6 +109,7 @@ class Result:
             "se": self.se,
             "noncentrality": self.noncentrality,
             "critical": {k: list(v) for k, v in self.critical.items()},
+            "rejects": self.rejects,
             "size": self.size,
             "sample_size": None if self.sample_size is None else asdict(self.sample_size),
             "detectable": dict(self.detectable),
