@@ -35,7 +35,7 @@ class Scenario:
     params: Mapping[str, Any] = field(default_factory=dict)
     n: int | None = None
     alpha: float | None = 0.05
-    direction: str = "two-sided"
+    direction: str | None = None   # None: the design's first (usually two-sided)
     find: str = "power"
     target_power: float = 0.8
     adjustments: Mapping[str, Any] = field(default_factory=dict)
@@ -51,6 +51,8 @@ class Scenario:
                                        self.params[name])
         if self.find not in FINDS:
             raise InvalidParameter("find", f"must be one of {list(FINDS)}", self.find)
+        if self.direction is None:
+            object.__setattr__(self, "direction", d.directions[0])
         if self.direction not in DIRECTIONS:
             raise InvalidParameter("direction", f"must be one of {list(DIRECTIONS)}", self.direction)
         if self.direction not in d.directions:
