@@ -111,6 +111,10 @@ class Design:
 
     custom_power = None  # a design whose rejection region is not a tail sets this to a method
 
+    def power_ceiling(self, p: dict, alpha: float, direction: str) -> tuple[float, str] | None:
+        """The highest power any n can give, with the reason, for designs where it is below 1."""
+        return None
+
     def check(self, p: dict) -> None:
         """Cross-parameter checks; raise InvalidParameter naming the field."""
         lo, hi = self.effect_bounds(p)

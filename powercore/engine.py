@@ -83,6 +83,9 @@ def _n_guess(d: Design, p: dict, alpha: float, direction: str, target: float, n0
 def sample_size(design: Design, p: dict, alpha: float, direction: str, target: float) -> SampleSize:
     """The smallest whole n whose power reaches ``target``."""
     _check_effect_for_n(design, p, direction)
+    ceiling = design.power_ceiling(p, alpha, direction)
+    if ceiling is not None and ceiling[0] < target:
+        raise NoSolution("n", f"no {design.n.unit} reach power {target:g}: at most {ceiling[0]:.4f}; {ceiling[1]}")
     n_min = design.min_n(p)
     guess = _n_guess(design, p, alpha, direction, target, n_min)
     if design.discrete:
