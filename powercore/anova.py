@@ -5,7 +5,7 @@ import numpy as np
 
 from .design import Design, Explanation, Statistic, fmt, register
 from .distributions import FDist
-from .errors import InvalidParameter
+from ._whole import WholeParams
 from .spec import NSpec, ParamSpec
 
 __all__ = ["OneWayAnova", "f_from_means", "sd_of_means"]
@@ -26,19 +26,13 @@ def f_from_means(means, sd) -> float:
     return sd_of_means(means) / float(sd)
 
 
-def whole(spec: ParamSpec, value) -> None:
-    """Raise InvalidParameter unless ``value`` (already in the domain) is a whole number."""
-    if value is not None and not float(value).is_integer():
-        raise InvalidParameter(spec.name, f"must be a whole number in {spec.domain_text()}", value)
-
-
 K = ParamSpec("k", "number of groups k", "groups", 3.0,
               "number of groups compared, all of the same size n", low=2.0, high=100.0,
               low_closed=True, high_closed=True, soft=(2.0, 10.0), step=1.0)
 
 
 @register
-class OneWayAnova(Design):
+class OneWayAnova(WholeParams, Design):
     id = "anova-oneway"
     title = "Several means (one-way ANOVA F test)"
     family = "several groups"
@@ -67,9 +61,7 @@ class OneWayAnova(Design):
     n = NSpec("subjects per group", "subjects in all groups", 2, 20, (2, 200),
               "number of subjects in each of the k equal groups; the total is N = k·n")
     directions = ("upper",)
-
-    def check(self, p):
-        whole(K, p.get("k"))
+    whole_params = ("k",)
 
     def effect_bounds(self, p):
         return 0.0, np.inf
