@@ -143,6 +143,28 @@ def _cmd_record(args) -> int:
     return 0
 
 
+def _cmd_simulate(args) -> int:
+    from .simulate import simulate
+
+    def progress(done, total):
+        print(f"\rsimulated {done:,} of {total:,} studies", end="", file=sys.stderr, flush=True)
+    try:
+        scenario = scenario_from_args(args)
+        res = simulate(scenario, reps=args.reps, seed=args.seed, progress=None if args.quiet else progress)
+    except (InvalidParameter, NoSolution, RecordError) as e:
+        print(f"powerlens: {e}", file=sys.stderr)
+        return 2
+    if not args.quiet:
+        print(file=sys.stderr)
+    if args.record:
+        record = make_record(scenario, curves=False)
+        record["simulation"] = res.to_dict()
+        print(json.dumps(record, ensure_ascii=False, indent=1))
+    else:
+        print(json.dumps(res.to_dict(), ensure_ascii=False, indent=1))
+    return 0
+
+
 def _cmd_designs(args) -> int:
     for d in designs():
         print(f"{d.id:26s} {d.title}")
@@ -195,6 +217,14 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--out", help="write to this file instead of standard output")
     r.add_argument("--no-curves", action="store_true", help="leave the curve data out")
     r.set_defaults(func=_cmd_record)
+
+    m = sub.add_parser("simulate", help="confirm a scenario's power by simulating the study")
+    _scenario_flags(m)
+    m.add_argument("--reps", type=int, default=10_000, help="number of simulated studies (default 10000)")
+    m.add_argument("--seed", type=int, default=None, help="random seed (printed in the result; default: fresh)")
+    m.add_argument("--record", action="store_true", help="print the whole record with the simulation in it")
+    m.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    m.set_defaults(func=_cmd_simulate)
 
     sub.add_parser("designs", help="list the designs and their parameters").set_defaults(func=_cmd_designs)
     sub.add_parser("example", help="print a worked example").set_defaults(func=_cmd_example)
