@@ -30,6 +30,21 @@ from scipy.optimize import brentq
 __all__ = ["Binomial", "ChiSquare", "FDist", "Normal", "SampleCorrelation", "StudentT"]
 
 
+class _quiet(warnings.catch_warnings):
+    """Silence scipy's convergence warnings far in the tails, where results are clamped anyway."""
+
+    def __enter__(self):
+        out = super().__enter__()
+        warnings.simplefilter("ignore", RuntimeWarning)
+        self._np = np.errstate(all="ignore")
+        self._np.__enter__()
+        return out
+
+    def __exit__(self, *exc):
+        self._np.__exit__(*exc)
+        return super().__exit__(*exc)
+
+
 def _arr(x) -> np.ndarray:
     return np.asarray(x, dtype=float)
 
@@ -101,12 +116,13 @@ class Normal(_Continuous):
 
 def nct_cdf(x, df, nc):
     """Noncentral t CDF with the NaN of ``nctdtr`` far in the lower tail routed around."""
-    p = _arr(special.nctdtr(df, nc, x))
+    with _quiet():
+        p = _arr(special.nctdtr(df, nc, x))
     bad = ~np.isfinite(p)
     if bad.any():
         x, df, nc = np.broadcast_arrays(_arr(x), _arr(df), _arr(nc))
         x, df, nc = (np.broadcast_to(a, p.shape) for a in (x, df, nc))
-        with np.errstate(all="ignore"):
+        with _quiet():
             alt = _arr(stats.nct.sf(-x[bad], df[bad], -nc[bad]))
         still = ~np.isfinite(alt)
         alt[still] = np.where(x[bad][still] < nc[bad][still], 0.0, 1.0)
@@ -133,7 +149,7 @@ class StudentT(_Continuous):
     def pdf(self, x):
         if self.central:
             return stats.t.pdf(x, self.df)
-        with np.errstate(all="ignore"):
+        with _quiet():
             return np.nan_to_num(stats.nct.pdf(x, self.df, self.nc), nan=0.0)
 
     def cdf(self, x):
@@ -149,12 +165,14 @@ class StudentT(_Continuous):
     def ppf(self, q):
         if self.central:
             return special.stdtrit(self.df, _arr(q))
-        return stats.nct.ppf(q, self.df, self.nc)
+        with _quiet():
+            return stats.nct.ppf(q, self.df, self.nc)
 
     def isf(self, q):
         if self.central:
             return -special.stdtrit(self.df, _arr(q))
-        return stats.nct.isf(q, self.df, self.nc)
+        with _quiet():
+            return stats.nct.isf(q, self.df, self.nc)
 
 
 class FDist(_Continuous):

@@ -200,7 +200,12 @@ def tost_power(delta, margin, sigma_d, df, alpha):
     delta, margin, sigma_d, df, alpha = np.broadcast_arrays(*(np.asarray(v, dtype=float)
                                                               for v in (delta, margin, sigma_d, df, alpha)))
     t = -special.stdtrit(df, alpha)
-    s_max = margin / t
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return _tost(delta, margin, sigma_d, df, t)
+
+
+def _tost(delta, margin, sigma_d, df, t):
+    s_max = np.where(t > 0, margin / np.where(t > 0, t, 1.0), np.inf)
     u_max = special.chdtr(df, df * (s_max / sigma_d) ** 2)          # P(S < s_max)
     u = u_max[..., None] * (_GL_X + 1) / 2
     s = sigma_d[..., None] * np.sqrt(special.chdtri(df[..., None], 1 - u) / df[..., None])
