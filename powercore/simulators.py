@@ -332,3 +332,169 @@ def _cluster_props_run(counts_clusters):
 for _id, _cc in (("cluster-proportions-clusters", True), ("cluster-proportions-size", False)):
     SIMULATORS[_id] = Simulator(_cluster_props_run(_cc), "z test of pooled arm proportions with variance "
                                 "inflated by the design effect; beta-binomial cluster data", _WHY_CLUSTER)
+
+
+# ---- several groups, contingency tables, regression ----------------------------------------
+def _spread(k, sd_of_means):
+    """k equally spaced group means with population SD ``sd_of_means`` (the noncentrality depends on it alone)."""
+    z = np.linspace(-1.0, 1.0, k)
+    z = z / z.std() if k > 1 else z
+    return sd_of_means * z
+
+
+@_register("anova-oneway", test="scipy.stats.f_oneway on raw normal data, equally spaced group means")
+def _anova(p, sizes, alpha, direction, reps, rng):
+    k = int(round(p["k"]))
+    n = int(sizes[0])
+    means = _spread(k, p["delta"])
+    groups = [_normal(rng, m, p["sd"], (reps, n)) for m in means]
+    return stats.f_oneway(*groups, axis=1).pvalue <= alpha
+
+
+def _gof_cells(w, df):
+    """Null and alternative cell proportions with k = df + 1 equal null cells and Cohen's w = w."""
+    k = df + 1
+    p0 = np.full(k, 1.0 / k)
+    v = np.zeros(k)
+    half = k // 2
+    v[:half], v[half:2 * half] = 1.0, -1.0       # zero-sum deviation pattern
+    c = w / np.sqrt(np.sum(v * v) * k)           # w² = Σ (c·v)²/(1/k)
+    p1 = p0 + c * v
+    return p0, p1
+
+
+@_register("chisquare-gof", test="Pearson chi-square goodness-of-fit test (scipy.stats.chisquare) on multinomial counts",
+           why="the noncentral chi-square is a large-sample approximation")
+def _chisq_gof(p, sizes, alpha, direction, reps, rng):
+    df = int(round(p["df"]))
+    p0, p1 = _gof_cells(p["delta"], df)
+    if np.any(p1 < 0):
+        raise ValueError("w too large for the simulator's cell pattern")
+    n = int(sizes[0])
+    counts = rng.multinomial(n, p1, size=reps)
+    return stats.chisquare(counts, n * p0, axis=1).pvalue <= alpha
+
+
+@_register("chisquare-independence", test="Pearson chi-square test of independence (no continuity correction) on "
+                                          "multinomial 2 × (df + 1) tables, expected counts from the margins",
+           why="the noncentral chi-square is a large-sample approximation")
+def _chisq_ind(p, sizes, alpha, direction, reps, rng):
+    df = int(round(p["df"]))
+    cols = df + 1
+    base = np.full((2, cols), 1.0 / (2 * cols))
+    d = np.zeros((2, cols))
+    d[0, 0] = d[1, 1] = 1.0
+    d[0, 1] = d[1, 0] = -1.0
+    c = p["delta"] * np.sqrt(2 * cols) / 2        # w² = Σ (c·d)²/(2·cols) · ... with uniform margins
+    joint = base * (1 + c * d)
+    n = int(sizes[0])
+    counts = rng.multinomial(n, joint.ravel(), size=reps).reshape(reps, 2, cols).astype(float)
+    rows, colsum = counts.sum(2, keepdims=True), counts.sum(1, keepdims=True)
+    expected = rows * colsum / n
+    with np.errstate(divide="ignore", invalid="ignore"):
+        chi2 = np.nansum(np.where(expected > 0, (counts - expected) ** 2 / expected, 0.0), axis=(1, 2))
+    return chi2 >= stats.chi2.isf(alpha, df)
+
+
+def _ols_r2(X, y):
+    """R² of least squares with an intercept, for each replicate (rows of the batched X, y)."""
+    Xc = X - X.mean(1, keepdims=True)
+    yc = y - y.mean(1, keepdims=True)
+    beta = np.linalg.solve(np.einsum("rni,rnj->rij", Xc, Xc), np.einsum("rni,rn->ri", Xc, yc)[..., None])[..., 0]
+    fitted = np.einsum("rni,ri->rn", Xc, beta)
+    return (fitted ** 2).sum(1) / (yc ** 2).sum(1)
+
+
+_WHY_RANDOM_X = ("the analytic power treats the predictors as fixed (Cohen's λ = f²·N); the simulation draws "
+                 "random normal predictors, which lowers power a little at small N")
+
+
+@_register("regression-r2", test="overall F test of R² by least squares, random normal predictors",
+           why=_WHY_RANDOM_X)
+def _reg_r2(p, sizes, alpha, direction, reps, rng):
+    u, n = int(round(p["u"])), int(sizes[0])
+    r2 = p["delta"]
+    X = rng.standard_normal((reps, n, u))
+    beta = np.full(u, np.sqrt(r2 / (1 - r2) / u))
+    y = X @ beta + rng.standard_normal((reps, n))
+    r = _ols_r2(X, y)
+    f = (r / u) / ((1 - r) / (n - u - 1))
+    return f >= stats.f.isf(alpha, u, n - u - 1)
+
+
+@_register("regression-r2-change", test="F test of the R² increase for u added predictors, least squares, "
+                                        "independent random normal predictors", why=_WHY_RANDOM_X)
+def _reg_change(p, sizes, alpha, direction, reps, rng):
+    u, v, n = int(round(p["u"])), int(round(p["v"])), int(sizes[0])
+    full = p["r2_base"] + p["delta"]
+    X = rng.standard_normal((reps, n, u + v))
+    beta = np.concatenate([np.full(v, np.sqrt(p["r2_base"] / (1 - full) / v)) if v else np.zeros(0),
+                           np.full(u, np.sqrt(p["delta"] / (1 - full) / u))])
+    y = X @ beta + rng.standard_normal((reps, n))
+    r_full = _ols_r2(X, y)
+    r_base = _ols_r2(X[:, :, :v], y) if v else np.zeros(reps)
+    f = ((r_full - r_base) / u) / ((1 - r_full) / (n - u - v - 1))
+    return f >= stats.f.isf(alpha, u, n - u - v - 1)
+
+
+# ---- paired proportions, rates, rank tests ---------------------------------------------------
+@_register("mcnemar", test="McNemar's test without continuity correction, z = (n01 − n10)/√(n01 + n10), on "
+                           "multinomial pairs", why="the normal approximation to McNemar's test is rough with "
+                                                    "few discordant pairs")
+def _mcnemar(p, sizes, alpha, direction, reps, rng):
+    n = int(sizes[0])
+    p01 = (p["psi"] + p["delta"]) / 2
+    p10 = (p["psi"] - p["delta"]) / 2
+    counts = rng.multinomial(n, [p10, p01, 1 - p10 - p01], size=reps)
+    n10, n01 = counts[:, 0], counts[:, 1]
+    disc = n10 + n01
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = np.where(disc > 0, (n01 - n10) / np.sqrt(disc), 0.0)
+    return _z_reject(z, alpha, direction)
+
+
+@_register("two-rates", test="score z test of two Poisson rates with the pooled rate, on Poisson event counts",
+           why="the normal approximation is rough with few expected events")
+def _rates(p, sizes, alpha, direction, reps, rng):
+    n1, n2 = sizes
+    t1, t2 = n1 * p["exposure"], n2 * p["exposure"]
+    x1 = rng.poisson(p["rate1"] * t1, reps)
+    x2 = rng.poisson((p["rate1"] + p["delta"]) * t2, reps)
+    pooled = (x1 + x2) / (t1 + t2)
+    se = np.sqrt(pooled * (1 / t1 + 1 / t2))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = np.where(se > 0, (x2 / t2 - x1 / t1) / se, 0.0)
+    return _z_reject(z, alpha, direction)
+
+
+def _parent(rng, are, shape):
+    """Standardized draws (mean 0, SD 1) from the parent distribution whose ARE against the t test is ``are``."""
+    known = {"normal": 3 / np.pi, "uniform": 1.0, "logistic": np.pi ** 2 / 9, "laplace": 1.5}
+    name = min(known, key=lambda k: abs(known[k] - are))
+    if name == "uniform":
+        return rng.uniform(-np.sqrt(3), np.sqrt(3), shape)
+    if name == "logistic":
+        return rng.logistic(0, np.sqrt(3) / np.pi, shape)
+    if name == "laplace":
+        return rng.laplace(0, 1 / np.sqrt(2), shape)
+    return rng.standard_normal(shape)
+
+
+_WHY_ARE = "the efficiency (ARE) is reached only as n grows; at small n the approximation overstates power"
+
+
+@_register("wilcoxon-mann-whitney", test="scipy.stats.mannwhitneyu (asymptotic) on shifted draws from the parent "
+                                         "distribution matching the ARE", why=_WHY_ARE)
+def _wmw(p, sizes, alpha, direction, reps, rng):
+    n1, n2 = sizes
+    a = p["sd"] * _parent(rng, p["are"], (reps, n1))
+    b = p["delta"] + p["sd"] * _parent(rng, p["are"], (reps, n2))
+    return stats.mannwhitneyu(b, a, axis=1, alternative=_ALT[direction], method="asymptotic").pvalue <= alpha
+
+
+@_register("wilcoxon-signed-rank", test="scipy.stats.wilcoxon (normal approximation) on within-pair differences "
+                                        "from the parent distribution matching the ARE", why=_WHY_ARE)
+def _signed_rank(p, sizes, alpha, direction, reps, rng):
+    n = sizes[0]
+    dif = p["delta"] + p["sd_diff"] * _parent(rng, p["are"], (reps, n))
+    return stats.wilcoxon(dif, axis=1, alternative=_ALT[direction], method="approx").pvalue <= alpha

@@ -14,13 +14,15 @@ from powercore.simulators import SIMULATORS
 # Designs whose analytic power is exact for the data the simulator draws: agreement within 4 SE.
 EXACT = {"mean-z", "mean-t", "paired-t", "two-means-z", "two-means-t", "proportion-exact", "correlation-exact",
          "two-means-noninferiority", "two-means-superiority", "two-means-equivalence", "cluster-means-clusters",
-         "cluster-means-size"}
+         "cluster-means-size", "anova-oneway"}
 # Approximate designs, checked where their approximation is meant to hold; tolerance 4 SE plus the
 # approximation error each design's notes state (in power units).
 APPROX = {"two-means-welch": 0.01, "proportion-normal": 0.02, "two-proportions": 0.015,
           "two-proportions-arcsine": 0.015, "correlation-fisher": 0.015, "two-proportions-noninferiority": 0.02,
           "two-proportions-superiority": 0.03, "logrank-events": 0.03, "logrank-subjects": 0.03,
-          "cluster-proportions-clusters": 0.03, "cluster-proportions-size": 0.03}
+          "cluster-proportions-clusters": 0.03, "cluster-proportions-size": 0.03, "chisquare-gof": 0.02,
+          "chisquare-independence": 0.03, "regression-r2": 0.02, "regression-r2-change": 0.035, "mcnemar": 0.02,
+          "two-rates": 0.02, "wilcoxon-mann-whitney": 0.02, "wilcoxon-signed-rank": 0.02}
 
 GRID = {  # (params, n) with the power away from 0 and 1; big enough n for the approximations
     "mean-z": [({"delta": 3.0, "sd": 10.0}, 60), ({"delta": -2.0, "sd": 5.0}, 30)],
@@ -46,13 +48,24 @@ GRID = {  # (params, n) with the power away from 0 and 1; big enough n for the a
     "cluster-means-size": [({"delta": 4.0, "sd": 10.0, "icc": 0.05, "k": 8.0}, 10)],
     "cluster-proportions-clusters": [({"p1": 0.3, "delta": 0.12, "icc": 0.02, "m": 30.0}, 15)],
     "cluster-proportions-size": [({"p1": 0.3, "delta": 0.12, "icc": 0.02, "k": 15.0}, 30)],
+    "anova-oneway": [({"delta": 2.5, "sd": 10.0, "k": 3.0}, 40), ({"delta": 4.0, "sd": 10.0, "k": 5.0}, 15)],
+    "chisquare-gof": [({"delta": 0.25, "df": 3.0}, 120)],
+    "chisquare-independence": [({"delta": 0.25, "df": 2.0}, 150)],
+    "regression-r2": [({"delta": 0.1, "u": 3.0}, 80)],
+    "regression-r2-change": [({"delta": 0.05, "r2_base": 0.2, "u": 2.0, "v": 2.0}, 150)],
+    "mcnemar": [({"delta": 0.1, "psi": 0.3}, 150)],
+    "two-rates": [({"rate1": 1.0, "delta": 0.5, "exposure": 1.0}, 40)],
+    "wilcoxon-mann-whitney": [({"delta": 5.0, "sd": 10.0}, 40)],
+    "wilcoxon-signed-rank": [({"delta": 4.0, "sd_diff": 10.0}, 40)],
 }
-REPS = {"logrank-events": 1500, "logrank-subjects": 1500, "correlation-exact": 4000}
+REPS = {"logrank-events": 1500, "logrank-subjects": 1500, "correlation-exact": 4000, "regression-r2": 3000,
+        "regression-r2-change": 3000}
 
 
-def test_every_simulated_design_has_a_grid():
-    """Each design with a simulator is in this file's grid, so none goes unchecked."""
-    assert set(SIMULATORS) <= set(GRID) and set(GRID) == EXACT | set(APPROX)
+def test_every_design_has_a_simulator_and_a_grid():
+    """Every registered design can be simulated and is in this file's grid, so none goes unchecked."""
+    ids = {d.id for d in pc.designs()}
+    assert ids == set(SIMULATORS) == set(GRID) == EXACT | set(APPROX)
 
 
 @pytest.mark.parametrize("design, params, n", [(d, p, n) for d, rows in GRID.items() for p, n in rows])
