@@ -1,0 +1,120 @@
+"""The explorer page: controls, readout, three linked views and the working, for one session."""
+from __future__ import annotations
+
+import html
+import threading
+
+import panel as pn
+
+from .controls import WATCHED, ScenarioControls
+from .figures import DensityFigure, EffectCurveFigure, NCurveFigure
+from .readout import Readout, Working
+from .state import DEMO, ExplorerState
+from .text import SCALE_LABELS
+from .theme import PANE_CSS, WIDGET_CSS, button_look
+
+__all__ = ["CAUTIONS", "Explorer", "create_app"]
+
+CAUTIONS = (
+    "A study plan that affects people needs a qualified statistician; local regulations and ethics "
+    "rules prevail.",
+    "Do not compute “observed power” from the observed effect of the same study: it is only a "
+    "restatement of the p-value (Hoenig & Heisey 2001) and must not be used.",
+)
+
+
+class Explorer(pn.viewable.Viewer):
+    """One session's page. ``state`` is created here unless given (tests pass their own)."""
+
+    def __init__(self, state: ExplorerState | None = None) -> None:
+        super().__init__()
+        self.state = state if state is not None else ExplorerState()
+        st = self.state
+        self._lock = threading.Lock()
+        self._pending = False
+        self._need_figures = False
+        self.controls = ScenarioControls(st, watch=False)
+        self.densities = DensityFigure()
+        self.effect_curve = EffectCurveFigure()
+        self.n_curve = NCurveFigure()
+        self.readout = Readout(st)
+        self.working = Working(st)
+        self.scale = pn.widgets.RadioButtonGroup(
+            options={v: k for k, v in SCALE_LABELS.items()}, value=st.scale,
+            **button_look(), css_classes=["pl-scale"],
+            stylesheets=[WIDGET_CSS], margin=(4, 10))
+        self.scale.param.watch(lambda e: setattr(st, "scale", e.new), "value")
+        st.param.watch(self._changed, list(WATCHED))
+        self._layout = self._build_layout()
+        self.refresh()
+
+    def __panel__(self):
+        return self._layout
+
+    def _changed(self, *events) -> None:
+        """Schedule one refresh of the page on the server's event loop.
+
+        Widget events run in the worker threads (the computing happens there); the page's models
+        are then changed on the event loop inside one ``hold``, which Panel sends to the browser
+        as a single message. Changes that arrive while a refresh is pending share it.
+        """
+        with self._lock:
+            self._need_figures |= any(e.name == "snapshot" for e in events)
+            if self._pending:
+                return
+            self._pending = True
+        pn.state.execute(self._run_refresh, schedule="auto")
+
+    def _run_refresh(self) -> None:
+        with self._lock:
+            figures, self._need_figures, self._pending = self._need_figures, False, False
+        self.refresh(figures=figures)
+
+    def refresh(self, figures: bool = True) -> None:
+        """Bring the controls and views in line with the state, as one batch of changes."""
+        st = self.state
+        with pn.io.hold():
+            self.controls.refresh()
+            snap = st.snapshot
+            if figures and snap is not None:
+                for view in (self.densities, self.effect_curve, self.n_curve):
+                    view.update(snap)
+                self.working.update()
+            self.readout.update()
+            if self.scale.value != st.scale:
+                self.scale.value = st.scale
+
+    def _build_layout(self):
+        header = pn.pane.HTML(
+            '<h1>Powerlens <span style="font-weight:400">— sample size explorer</span></h1>'
+            '<p class="pl-sub">Set the assumptions on the left; choose what to find. The views follow as '
+            'you drag.</p>', stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(4, 10))
+        cautions = pn.pane.HTML(
+            '<div class="pl-cautions" role="note">'
+            + "".join(f"<p><b>{'Caution' if i == 0 else 'Warning'}:</b> {html.escape(c)}</p>"
+                      for i, c in enumerate(CAUTIONS))
+            + "</div>", stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(0, 10),
+            css_classes=["pl-cautions-pane"])
+        demo = pn.pane.HTML(f'<div class="pl-demo"><b>Invented demo.</b> {html.escape(DEMO["story"])}</div>',
+                            stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(0, 10),
+                            css_classes=["pl-demo-pane"])
+        sidebar = pn.Column(self.controls, width=400, margin=(0, 6), css_classes=["pl-sidebar"],
+                            styles={"background": "white", "border-right": "1px solid #DDDDDD"})
+        draw_row = pn.Row(pn.pane.HTML('<p class="pl-label">Densities of:</p>', stylesheets=[PANE_CSS],
+                                       margin=(10, 4, 0, 10)), self.scale, margin=0)
+        main = pn.Column(
+            self.readout,
+            draw_row,
+            self.densities,
+            pn.Row(self.effect_curve, self.n_curve, sizing_mode="stretch_width", margin=0,
+                   styles={"flex-wrap": "wrap"}),
+            self.working,
+            sizing_mode="stretch_width", margin=0, css_classes=["pl-main"])
+        return pn.Column(header, cautions, demo,
+                         pn.Row(sidebar, main, sizing_mode="stretch_width", margin=0),
+                         sizing_mode="stretch_width", margin=0, css_classes=["pl-page"])
+
+
+def create_app() -> Explorer:
+    """A fresh page with its own state, for one browser session."""
+    return Explorer()

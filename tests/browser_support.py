@@ -1,0 +1,164 @@
+"""Shared pieces of the browser tests: the server subprocess, headless Chromium, a guarded page.
+
+Import the fixtures into a test module with ``from browser_support import *``. The
+server runs as ``python3 -m app.server --port 0`` (the same code as ``powerlens serve``)
+and is stopped with SIGINT by its PID; Chromium is Debian's, driven by Playwright,
+never downloaded.
+"""
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import signal
+import subprocess
+import sys
+import time
+import urllib.parse
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+ARTIFACTS = ROOT / "tests" / "artifacts"
+CHROMIUM = (os.environ.get("PLAYWRIGHT_CHROMIUM_EXECUTABLE") or shutil.which("chromium")
+            or "/usr/bin/chromium")
+CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                 "--disable-component-update", "--disable-sync", "--no-first-run", "--disable-quic"]
+
+try:
+    from playwright.sync_api import expect, sync_playwright
+    expect.set_options(timeout=15_000)   # generous: CI machines may be busy; passing waits end early
+    HAVE_PLAYWRIGHT = True
+except ImportError:   # pragma: no cover - CI installs it
+    HAVE_PLAYWRIGHT = False
+
+skip_reason = None
+if not HAVE_PLAYWRIGHT:
+    skip_reason = "playwright (python) is not installed: pip install -e '.[test]'"
+elif not (os.path.exists(CHROMIUM) and os.access(CHROMIUM, os.X_OK)):
+    skip_reason = f"no Chromium at {CHROMIUM}: apt-get install chromium (as .ci/run does)"
+
+needs_browser = pytest.mark.skipif(skip_reason is not None, reason=skip_reason or "")
+
+__all__ = ["ARTIFACTS", "GuardedPage", "browser", "needs_browser", "open_page", "server",
+           "start_server", "stop_server", "wait_ready"]
+
+READY_JS = """() => { const d = window.Bokeh && Bokeh.documents[0];
+    const names = ['densities', 'power-effect', 'power-n'];
+    return !!d && names.every(n => { const m = d.get_model_by_name(n);
+        const v = m && Bokeh.index.find_one(m); return !!(v && v.has_finished()); }); }"""
+
+
+class ServerProcess:
+    def __init__(self, proc: subprocess.Popen, url: str, started: float, ready: float) -> None:
+        self.proc, self.url, self.started, self.ready = proc, url, started, ready
+
+    @property
+    def port(self) -> int:
+        return int(urllib.parse.urlparse(self.url).port)
+
+
+def start_server(*extra: str, timeout: float = 30.0) -> ServerProcess:
+    """Start ``python3 -m app.server --port 0`` and wait for the address it prints."""
+    env = {**os.environ, "PYTHONUNBUFFERED": "1"}
+    started = time.perf_counter()
+    proc = subprocess.Popen([sys.executable, "-m", "app.server", "--port", "0", *extra], cwd=ROOT, env=env,
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    deadline = time.time() + timeout
+    while time.time() < deadline:
+        line = proc.stdout.readline()
+        if not line:
+            if proc.poll() is not None:
+                raise RuntimeError(f"server exited early: {proc.stderr.read()}")
+            continue
+        m = re.search(r"(http://127\.0\.0\.1:\d+/)", line)
+        if m:
+            return ServerProcess(proc, m.group(1), started, time.perf_counter())
+    stop_server(proc)
+    raise RuntimeError("server did not print its address in time")
+
+
+def stop_server(proc: subprocess.Popen, timeout: float = 15.0) -> tuple[int, str, str]:
+    """Ctrl-C the server by its PID; returns (exit code, rest of stdout, stderr)."""
+    if proc.poll() is None:
+        proc.send_signal(signal.SIGINT)
+    try:
+        out, err = proc.communicate(timeout=timeout)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+        out, err = proc.communicate()
+    return proc.returncode, out, err
+
+
+@pytest.fixture(scope="module")
+def server():
+    srv = start_server()
+    yield srv
+    code, out, err = stop_server(srv.proc)
+    assert code == 0, f"server exit code {code}: {err[-2000:]}"
+    assert "stopped" in out
+    assert "Traceback" not in err, err[-3000:]
+
+
+@pytest.fixture(scope="module")
+def browser():
+    with sync_playwright() as p:
+        b = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+        yield b
+        b.close()
+
+
+class GuardedPage:
+    """A page in a fresh context that refuses every request off 127.0.0.1 and records console errors."""
+
+    def __init__(self, browser, url: str, viewport=(1600, 1000), scale: float = 1.0) -> None:
+        self.external: list[str] = []
+        self.errors: list[str] = []
+        self.context = browser.new_context(viewport={"width": viewport[0], "height": viewport[1]},
+                                           device_scale_factor=scale)
+        self.context.route("**/*", self._guard)
+        self.page = self.context.new_page()
+        self.page.on("console", lambda m: self.errors.append(m.text) if m.type == "error" else None)
+        self.page.on("pageerror", lambda e: self.errors.append(f"pageerror: {e}"))
+        self.url = url
+
+    def _guard(self, route) -> None:
+        host = urllib.parse.urlparse(route.request.url).hostname
+        if host == "127.0.0.1":
+            route.continue_()
+        else:
+            self.external.append(route.request.url)
+            route.abort()
+
+    def open(self) -> float:
+        t0 = time.perf_counter()
+        self.page.goto(self.url)
+        wait_ready(self.page)
+        return time.perf_counter() - t0
+
+    def close(self) -> None:
+        self.context.close()
+
+
+def wait_ready(page, timeout: float = 30000) -> None:
+    page.wait_for_function(READY_JS, timeout=timeout)
+
+
+@pytest.fixture
+def open_page(browser, server):
+    """Factory: open_page() gives a loaded GuardedPage; checks at the end that it stayed local and clean."""
+    pages: list[GuardedPage] = []
+
+    def make(**kw) -> GuardedPage:
+        gp = GuardedPage(browser, server.url, **kw)
+        gp.open()
+        pages.append(gp)
+        return gp
+
+    yield make
+    for gp in pages:
+        gp.close()
+    for gp in pages:
+        assert gp.external == [], f"requests left 127.0.0.1: {gp.external}"
+        assert gp.errors == [], f"browser console errors: {gp.errors}"

@@ -1,0 +1,334 @@
+"""The explorer without a browser: render to a Bokeh document, change the state, read the models.
+
+Expected numbers come from ``powercore.evaluate`` / ``densities`` / ``curve_*`` on the same
+scenario, so these tests pin the wiring of the app, not the statistics.
+"""
+from __future__ import annotations
+
+import math
+import re
+
+import numpy as np
+import pytest
+from bokeh.document import Document
+from bokeh.models import ColumnDataSource, Title
+
+import powercore as pc
+from app.explorer import CAUTIONS, Explorer
+from app.readout import readout_rows
+from app.state import DEMO, ExplorerState
+from app.text import caption, num
+
+DESIGN_IDS = [d.id for d in pc.designs()]
+
+
+def render(explorer: Explorer) -> Document:
+    doc = Document()
+    doc.add_root(explorer.__panel__().get_root(doc))
+    return doc
+
+
+@pytest.fixture
+def app():
+    explorer = Explorer()
+    explorer.doc = render(explorer)
+    return explorer
+
+
+def source(doc: Document, name: str) -> ColumnDataSource:
+    src = doc.select_one({"name": name})
+    assert isinstance(src, ColumnDataSource), name
+    return src
+
+
+def readout_value(app: Explorer, key: str) -> str:
+    m = re.search(rf'data-key="{key}">([^<]*)<', app.readout.pane.object)
+    assert m, f"no readout row {key}"
+    return m.group(1)
+
+
+def demo_scenario(**changes) -> pc.Scenario:
+    sc = pc.Scenario(design=DEMO["design"], params=DEMO["params"], n=DEMO["n"], alpha=DEMO["alpha"],
+                     direction=DEMO["direction"], find=DEMO["find"], target_power=DEMO["target_power"])
+    return sc.replace(**changes) if changes else sc
+
+
+# ---- the page at start ------------------------------------------------------------------
+def test_demo_loads_and_matches_powercore(app):
+    """The invented demo is loaded at start and its readout and densities match powercore."""
+    res = pc.evaluate(demo_scenario())
+    assert readout_value(app, "power").startswith(num(res.power, 4))
+    assert readout_value(app, "beta") == num(res.beta, 4)
+    dens = pc.densities(res.solved, "statistic")
+    src = source(app.doc, "density-curve")
+    np.testing.assert_allclose(src.data["x"], dens.x)
+    np.testing.assert_allclose(src.data["alt"], dens.alt)
+    assert "81 subjects in group 1" in readout_value(app, "required-n")
+    assert "162 subjects in both groups" in readout_value(app, "required-n")
+
+
+def test_demo_and_cautions_are_labelled():
+    """The page says the demo is invented and shows both cautions."""
+    explorer = Explorer()
+    texts = " ".join(str(getattr(p, "object", "")) for p in explorer._layout.select(lambda o: hasattr(o, "object")))
+    assert "Invented" in texts and "not a real study" in texts
+    assert "qualified statistician" in CAUTIONS[0] and "regulations and ethics rules prevail" in CAUTIONS[0]
+    assert "Hoenig &amp; Heisey 2001" in texts and "observed power" in texts.lower()
+
+
+def test_columns_are_numpy_arrays(app):
+    """Sources hold numpy arrays (sent as binary buffers), not lists."""
+    for name in ("density-curve", "effect-curve", "n-curve"):
+        for col in source(app.doc, name).data.values():
+            assert isinstance(col, np.ndarray)
+
+
+def test_captions_inside_figures(app):
+    """Each figure carries its caption as a Bokeh Title inside the figure (so a PNG export keeps it)."""
+    res = app.state.snapshot.result
+    expected = caption(app.state.current_design(), res, "min")
+    for fig in (app.densities.fig, app.effect_curve.fig, app.n_curve.fig):
+        titles = [t.text for t in fig.below if isinstance(t, Title)]
+        assert titles == ["\n".join(expected)]
+    assert "two-sided" in expected[1] and "α = 0.05" in expected[1]
+    assert "+20 min" in expected[2] and "n = 60 subjects in group 1" in expected[3]
+
+
+# ---- changes flow to the views --------------------------------------------------------------
+def test_effect_box_updates_views_in_place(app):
+    """Typing an effect replaces the sources' data in place and the readout follows powercore."""
+    figs = (app.densities.fig, app.effect_curve.fig, app.n_curve.fig)
+    src_before = source(app.doc, "effect-curve")
+    app.controls.effect.box.value = 30.0
+    assert app.state.values["delta"] == 30.0
+    res = pc.evaluate(demo_scenario(params={"delta": 30.0}))
+    assert readout_value(app, "power").startswith(num(res.power, 4))
+    assert source(app.doc, "effect-curve") is src_before
+    np.testing.assert_allclose(source(app.doc, "effect-point").data["power"], [res.power])
+    n_src = source(app.doc, "n-curve")
+    lo, hi = pc.n_range(res)
+    curve = pc.curve_n(res.solved, lo, hi, points=300)
+    np.testing.assert_allclose(n_src.data["power"], curve.power)
+    assert (app.densities.fig, app.effect_curve.fig, app.n_curve.fig) == figs
+    assert app.n_curve.required.location == res.sample_size.n
+
+
+def test_slider_and_box_stay_in_step(app):
+    """Dragging a slider moves its box and the state; typing moves the slider."""
+    ctl = app.controls.alpha
+    ctl.slider.value = 0.01
+    assert ctl.box.value == pytest.approx(0.01) and app.state.alpha == pytest.approx(0.01)
+    ctl.box.value = 0.025
+    assert ctl.slider.value == pytest.approx(0.025) and app.state.alpha == 0.025
+    n = app.controls.n
+    n.slider.value = 90
+    assert n.box.value == 90 and app.state.n == 90
+    res = pc.evaluate(demo_scenario(n=90, alpha=0.025))
+    assert readout_value(app, "power").startswith(num(res.power, 4))
+
+
+def test_typed_value_beyond_soft_range_widens_slider(app):
+    """A typed value past the slider's typical range (inside the domain) is used and widens the slider."""
+    ctl = app.controls.n
+    ctl.box.value = 1000.0
+    assert app.state.n == 1000 and ctl.slider.end >= 1000 and ctl.slider.value == 1000
+    assert app.state.snapshot.result.n == 1000
+
+
+def test_standardized_effect_kept_in_step(app):
+    """Setting Cohen's d moves the effect in data units (d·σ) and back."""
+    app.controls.standardized.box.value = 0.5
+    assert app.state.values["delta"] == pytest.approx(0.5 * 45)
+    assert app.controls.effect.box.value == pytest.approx(22.5)
+    app.controls.effect.box.value = 9.0
+    assert app.controls.standardized.box.value == pytest.approx(0.2)
+
+
+def test_scale_switch_draws_data_units(app):
+    """The densities switch to the estimate in data units, with the unit on the axis."""
+    app.scale.value = "data"
+    dens = pc.densities(pc.evaluate(demo_scenario()).solved, "data")
+    src = source(app.doc, "density-curve")
+    np.testing.assert_allclose(src.data["x"], dens.x)
+    assert app.densities.fig.xaxis[0].axis_label.endswith("(min)")
+    lo, hi = dens.critical
+    assert app.densities.crit_lines[0].location == pytest.approx(lo)
+    assert app.densities.crit_lines[1].location == pytest.approx(hi)
+
+
+@pytest.mark.parametrize("find, unknown", [("n", {"n": None}), ("effect", {}), ("alpha", {"alpha": None})])
+def test_find_modes_show_found_value_read_only(app, find, unknown):
+    """The quantity being found is shown as a read-only result in place of its inputs."""
+    app.controls.find.value = find
+    res = pc.evaluate(demo_scenario(find=find, **unknown))
+    ctl = {"n": app.controls.n, "effect": app.controls.effect, "alpha": app.controls.alpha}[find]
+    assert ctl._found.visible and not ctl._inputs.visible
+    assert "(found)" in ctl._found.object
+    expected = {"n": f"n = {res.n} subjects in group 1", "effect": f"+{num(res.effect, 4)} min",
+                "alpha": f"α = {num(res.alpha, 4)}"}[find]
+    assert expected in ctl._found.object
+    assert app.state.snapshot.result.power == pytest.approx(res.power)
+    assert {"n": "sample size (found)", "effect": "effect (found)",
+            "alpha": "(found)"}[find] in app.readout.pane.object
+    app.controls.find.value = "power"
+    assert not ctl._found.visible and ctl._inputs.visible
+
+
+def test_found_value_is_adopted_when_switching_back(app):
+    """After finding n, asking for power again starts from the n that was found."""
+    app.controls.find.value = "n"
+    found = app.state.snapshot.result.n
+    app.controls.find.value = "power"
+    assert app.state.n == found and app.controls.n.box.value == found
+
+
+def test_direction_one_sided(app):
+    """One-sided upper: one critical value, one detectable effect."""
+    app.controls.direction.value = "upper"
+    res = pc.evaluate(demo_scenario(direction="upper"))
+    assert readout_value(app, "power").startswith(num(res.power, 4))
+    assert not app.densities.crit_lines[0].visible and app.densities.crit_lines[1].visible
+    assert app.effect_curve.detect[1].visible and not app.effect_curve.detect[0].visible
+
+
+# ---- bad input ----------------------------------------------------------------------------
+BAD = [
+    ("alpha", lambda a: setattr(a.controls.alpha.box, "value", 1.5), "alpha", "must be in (0, 1)"),
+    ("n", lambda a: setattr(a.controls.n.box, "value", -3.0), "n", "at least 2"),
+    ("n-fraction", lambda a: setattr(a.controls.n.box, "value", 12.5), "n", "whole number"),
+    ("sd", lambda a: setattr(a.controls.others["sd"].box, "value", 0.0), "sd", "must be in (0, ∞)"),
+    ("target-below-alpha", lambda a: setattr(a.controls.target.box, "value", 0.01), "target_power",
+     "must exceed"),
+    ("empty-box", lambda a: setattr(a.controls.alpha.box, "value", None), "alpha", "got nothing"),
+]
+
+
+@pytest.mark.parametrize("case, act, field, words", BAD, ids=[b[0] for b in BAD])
+def test_bad_input_message_at_field_and_last_good_views_stay(app, case, act, field, words):
+    """A bad value shows a message at its field and in the readout; the views keep the last good data."""
+    before = {k: np.array(v) for k, v in source(app.doc, "density-curve").data.items()}
+    power_before = readout_value(app, "power")
+    act(app)
+    assert field in app.state.errors and words in app.state.errors[field]
+    ctl = {"alpha": app.controls.alpha, "n": app.controls.n, "target_power": app.controls.target,
+           "sd": app.controls.others.get("sd")}[field]
+    assert ctl._message.visible and words.replace("∞", "∞") in ctl._message.object.replace("&#x27;", "'")
+    assert "last good scenario" in app.readout.pane.object
+    after = source(app.doc, "density-curve").data
+    for k in before:
+        np.testing.assert_array_equal(after[k], before[k])
+    assert readout_value(app, "power") == power_before
+
+
+def test_unreachable_target_is_reported_at_the_found_field():
+    """A target the design cannot reach (exact binomial, 5 trials) is a message, not a traceback."""
+    app = Explorer(ExplorerState(demo=False, design="proportion-exact"))
+    render(app)
+    app.controls.n.box.value = 5.0
+    app.controls.target.box.value = 0.99
+    app.controls.find.value = "effect"
+    assert "effect" in app.state.errors
+    assert "No detectable effect reaches the target power" in app.state.errors["effect"]
+    assert app.controls.effect._message.visible
+    app.controls.n.box.value = 200.0
+    assert app.state.errors == {} and app.state.snapshot.result.scenario.find == "effect"
+
+
+def test_zero_effect_when_finding_n():
+    """Finding n with a zero effect reports why there is no n; good input afterwards recovers."""
+    app = Explorer()
+    render(app)
+    app.controls.find.value = "n"
+    app.controls.effect.box.value = 0.0
+    assert "n" in app.state.errors and "power stays at α" in app.state.errors["n"]
+    assert app.controls.n._message.visible
+    app.controls.effect.box.value = 20.0
+    assert app.state.errors == {} and app.state.snapshot.result.n == 81
+
+
+def test_recovery_clears_messages(app):
+    """Correcting a bad value clears the message and updates the views again."""
+    app.controls.alpha.box.value = 1.5
+    app.controls.alpha.box.value = 0.01
+    assert app.state.errors == {} and not app.controls.alpha._message.visible
+    assert "last good" not in app.readout.pane.object
+    res = pc.evaluate(demo_scenario(alpha=0.01))
+    assert readout_value(app, "power").startswith(num(res.power, 4))
+
+
+# ---- every design, and sessions ---------------------------------------------------------
+@pytest.mark.parametrize("design_id", DESIGN_IDS)
+def test_every_registered_design_renders(design_id):
+    """Each design in the registry gets controls from its ParamSpecs and draws finite data."""
+    app = Explorer()
+    doc = render(app)
+    app.controls.design.value = design_id
+    d = pc.get_design(design_id)
+    assert app.state.errors == {}
+    # values that mean the same in both designs (same family, name and unit) are carried over
+    assert set(app.state.values) == {s.name for s in d.params}
+    res = pc.evaluate(pc.Scenario(design=design_id, params=app.state.values, n=app.state.n))
+    assert readout_value(app, "power").startswith(num(res.power, 4))
+    assert d.n.unit in readout_value(app, "n")
+    if d.discrete:
+        kept = [source(doc, f"density-bars-{k}").data for k in ("null", "null-reject")]
+        assert len(kept[0]["x"]) > 0 and len(source(doc, "density-curve").data["x"]) == 0
+        total = sum(float(np.sum(b["null"])) for b in kept)
+        assert 0.999 < total <= 1.0 + 1e-9   # the span drops 1e-4 in each tail
+        size = float(np.sum(kept[1]["null"]))
+        assert size == pytest.approx(app.state.snapshot.result.size, abs=2e-4)   # hatched bars hold the size
+    else:
+        curve = source(doc, "density-curve").data
+        assert len(curve["x"]) > 10 and np.all(np.isfinite(curve["alt"]))
+    for name in ("effect-curve", "n-curve"):
+        assert np.all(np.isfinite(source(doc, name).data["power"]))
+    names = {s.name for s in d.params} - {d.effect}
+    assert set(app.controls.others) == names
+    for spec in d.params:
+        if spec.kind == "bool":
+            assert type(app.controls.others[spec.name]).__name__ == "Checkbox"
+    for find in ("n", "effect", "alpha"):
+        app.controls.find.value = find
+        # the defaults may not reach the target for every unknown (e.g. too few clusters):
+        # then the only message is at the found field, saying why
+        errs = app.state.errors
+        assert errs == {} or (set(errs) == {find} and errs[find].startswith("No ")), (design_id, find, errs)
+
+
+def test_design_picker_grouped_by_family():
+    """The picker lists every registered design, grouped by family."""
+    app = Explorer()
+    groups = app.controls.design.groups
+    assert set(groups) == {d.family for d in pc.designs()}
+    listed = [v for g in groups.values() for v in g.values()]
+    assert sorted(listed) == sorted(DESIGN_IDS)
+
+
+def test_sessions_do_not_share_state():
+    """Two pages have separate states, widgets and figures."""
+    a, b = Explorer(), Explorer()
+    render(a), render(b)
+    a.controls.alpha.box.value = 0.01
+    a.controls.design.value = "correlation-fisher"
+    assert b.state.alpha == 0.05 and b.state.design == DEMO["design"]
+    assert a.densities.fig is not b.densities.fig
+    assert a.controls.alpha.slider is not b.controls.alpha.slider
+    assert b.state.snapshot.result.power == pytest.approx(pc.evaluate(demo_scenario()).power)
+
+
+def test_state_has_no_panel_dependency():
+    """The state module imports param and powercore only (no Panel, no Bokeh)."""
+    import app.state as st
+    import app.text as tx
+    for mod in (st, tx):
+        src = open(mod.__file__, encoding="utf-8").read()
+        assert "import panel" not in src and "bokeh" not in src
+
+
+def test_readout_rows_units():
+    """Every readout row that carries a quantity in data units shows the unit."""
+    state = ExplorerState()
+    rows = {k: t for k, _, t in readout_rows(state.snapshot)}
+    assert rows["critical-data"].count("min") == 2
+    assert "min" in rows["detectable"] and "(d = 0.516)" in rows["detectable"]
+    assert "t ≤ −1.98 or ≥ 1.98" == rows["critical-statistic"]

@@ -1,0 +1,195 @@
+"""The explorer in headless Chromium: drag, type, switch, break, isolate, and look at it.
+
+One server subprocess (``python3 -m app.server --port 0``) serves the whole module; every
+page runs in a fresh browser context that refuses any request off 127.0.0.1 and fails the
+test on a console error. Expected numbers come from powercore on the same scenario.
+"""
+from __future__ import annotations
+
+import base64
+import re
+
+import pytest
+
+import powercore as pc
+from app.state import DEMO
+from app.text import num
+from browser_support import *  # noqa: F401,F403  (fixtures: server, browser, open_page)
+from browser_support import ARTIFACTS, needs_browser
+
+pytestmark = [pytest.mark.browser, needs_browser]
+
+POWER = '.pl-readout td[data-key="power"]'
+
+
+def demo(**changes) -> pc.Scenario:
+    sc = pc.Scenario(design=DEMO["design"], params=DEMO["params"], n=DEMO["n"], alpha=DEMO["alpha"],
+                     direction=DEMO["direction"], target_power=DEMO["target_power"])
+    return sc.replace(**changes) if changes else sc
+
+
+def expect_power(page, scenario: pc.Scenario) -> None:
+    from playwright.sync_api import expect
+    want = num(pc.evaluate(scenario).power, 4)
+    expect(page.locator(POWER)).to_have_text(re.compile(rf"^{re.escape(want)}\b"), timeout=10000)
+
+
+def js_column(page, source: str, column: str) -> list[float]:
+    return page.evaluate(f"() => Array.from(Bokeh.documents[0].get_model_by_name('{source}').data['{column}'])")
+
+
+def type_into(page, key: str, text: str) -> None:
+    box = page.locator(f".pl-box-{key} input")
+    box.fill(text)
+    box.press("Enter")
+
+
+def test_page_offline_demo_and_cautions(open_page):
+    """The page loads from 127.0.0.1 only, shows the invented demo, both cautions and the core's power."""
+    from playwright.sync_api import expect
+    gp = open_page()
+    page = gp.page
+    expect_power(page, demo())
+    expect(page.locator(".pl-demo")).to_contain_text("Invented")
+    expect(page.locator(".pl-cautions")).to_contain_text("qualified statistician")
+    expect(page.locator(".pl-cautions")).to_contain_text("Hoenig & Heisey 2001")
+    res = pc.evaluate(demo())
+    assert js_column(page, "effect-point", "power") == pytest.approx([res.power])
+    assert page.locator("table.pl-working").inner_text().count("SE = σ·√(1/n1 + 1/n2)") == 1
+
+
+def test_keyboard_drag_and_typing(open_page):
+    """Arrow keys step the n slider; typing an exact effect moves its slider and Cohen's d."""
+    from playwright.sync_api import expect
+    page = open_page().page
+    handle = page.locator(".pl-slider-n .noUi-handle")
+    handle.focus()
+    for _ in range(5):
+        page.keyboard.press("ArrowRight")
+    expect(handle).to_have_attribute("aria-valuenow", re.compile(r"^65(\.0)?$"))
+    expect_power(page, demo(n=65))
+    expect(page.locator(".pl-box-n input")).to_have_value("65")
+    res = pc.evaluate(demo(n=65))
+    page.wait_for_function(f"() => Math.abs(Array.from(Bokeh.documents[0].get_model_by_name('n-now')"
+                           f".data_source.data.power)[0] - {res.power}) < 1e-12")
+    type_into(page, "effect", "27.5")
+    expect_power(page, demo(n=65, params={"delta": 27.5}))
+    expect(page.locator(".pl-box-standardized input")).to_have_value("0.6111")
+    expect(page.locator(".pl-slider-effect .noUi-handle")).to_have_attribute("aria-valuenow", "27.5")
+    type_into(page, "standardized", "0.3")
+    expect_power(page, demo(n=65, params={"delta": 13.5}))
+
+
+def test_switch_design_and_find(open_page):
+    """Another design gets its own controls; finding n shows the core's n read-only in its place."""
+    from playwright.sync_api import expect
+    page = open_page().page
+    d = pc.get_design("two-proportions")
+    page.locator(".pl-design select").select_option(label=d.title)
+    expect(page.locator(".pl-check-continuity")).to_be_visible()
+    expect(page.locator(".pl-control-n .pl-label")).to_contain_text("subjects in group 1")
+    expect_power(page, pc.Scenario(design=d.id, params=d.defaults(), n=60))
+    page.locator(".pl-find button", has_text="sample size").click()
+    res = pc.evaluate(pc.Scenario(design=d.id, params=d.defaults(), n=None, find="n"))
+    expect(page.locator(".pl-found-n")).to_contain_text(f"n = {res.n} subjects in group 1")
+    expect(page.locator(".pl-box-n input")).to_be_hidden()
+    page.locator(".pl-check-continuity input").check()
+    res_cc = pc.evaluate(pc.Scenario(design=d.id, params={**d.defaults(), "continuity": True}, n=None,
+                                     find="n"))
+    expect(page.locator(".pl-found-n")).to_contain_text(f"n = {res_cc.n} subjects in group 1")
+    page.locator(".pl-direction button", has_text="one-sided, upper").click()
+    res_up = pc.evaluate(pc.Scenario(design=d.id, params={**d.defaults(), "continuity": True}, n=None,
+                                     find="n", direction="upper"))
+    expect(page.locator(".pl-found-n")).to_contain_text(f"n = {res_up.n} subjects in group 1")
+    page.locator(".pl-scale button", has_text="estimate").click()
+    page.wait_for_function("() => Bokeh.documents[0].get_model_by_name('densities').below"
+                           ".some(a => a.axis_label && a.axis_label.startsWith('difference in proportions'))")
+
+
+@pytest.mark.parametrize("key, text, words", [
+    ("alpha", "1.5", "must be in (0, 1)"),
+    ("n", "-3", "must be at least 2"),
+    ("sd", "0", "must be in (0, ∞)"),
+    ("target_power", "0.01", "must exceed the significance level"),
+])
+def test_bad_values_message_and_page_keeps_working(open_page, key, text, words):
+    """A bad value shows a message at the field and in the readout; the last views stay; a fix recovers."""
+    from playwright.sync_api import expect
+    page = open_page().page
+    before = js_column(page, "density-curve", "alt")
+    type_into(page, key, text)
+    expect(page.locator(f".pl-msg-{key}")).to_contain_text(words)
+    expect(page.locator(".pl-readout .pl-stale")).to_contain_text(words)
+    expect_power(page, demo())
+    assert js_column(page, "density-curve", "alt") == before
+    good = {"alpha": "0.01", "n": "70", "sd": "40", "target_power": "0.9"}[key]
+    type_into(page, key, good)
+    expect(page.locator(f".pl-msg-{key}")).to_be_hidden()
+    change = {"alpha": {"alpha": 0.01}, "n": {"n": 70}, "sd": {"params": {"sd": 40.0}},
+              "target_power": {"target_power": 0.9}}[key]
+    expect_power(page, demo(**change))
+
+
+def test_unreachable_target_message(open_page):
+    """Finding the effect for an exact test with five trials and target 0.99 says why it fails."""
+    from playwright.sync_api import expect
+    page = open_page().page
+    page.locator(".pl-design select").select_option(label=pc.get_design("proportion-exact").title)
+    type_into(page, "n", "5")
+    type_into(page, "target_power", "0.99")
+    page.locator(".pl-find button", has_text="smallest detectable effect").click()
+    expect(page.locator(".pl-msg-effect")).to_contain_text("No detectable effect reaches the target power")
+    type_into(page, "n", "300")
+    expect(page.locator(".pl-msg-effect")).to_be_hidden()
+    expect(page.locator(".pl-found-effect")).to_contain_text("(found)")
+
+
+def test_hover_shows_values(open_page):
+    """Pointing at the power-against-n curve shows n and power under the pointer."""
+    from playwright.sync_api import expect
+    page = open_page().page
+    pt = page.evaluate("""() => { const v = Bokeh.index.find_one(Bokeh.documents[0].get_model_by_name('power-n'));
+        v.el.scrollIntoView({block: 'center'}); const r = v.el.getBoundingClientRect(); const f = v.frame.bbox;
+        return {x: r.x + f.left + f.width * 0.5, y: r.y + f.top + f.height * 0.5}; }""")
+    page.mouse.move(pt["x"] - 8, pt["y"])
+    page.mouse.move(pt["x"], pt["y"], steps=3)
+    expect(page.locator(".bk-Tooltip").first).to_be_visible()
+    expect(page.get_by_text(re.compile(r"^0\.\d{4}$")).first).to_be_visible()
+    expect(page.get_by_text("power:").first).to_be_visible()
+
+
+def test_two_tabs_are_isolated(open_page):
+    """Two browser contexts are two sessions: a change in one leaves the other alone."""
+    from playwright.sync_api import expect
+    a, b = open_page().page, open_page().page
+    type_into(a, "alpha", "0.01")
+    expect_power(a, demo(alpha=0.01))
+    a.locator(".pl-find button", has_text="sample size").click()
+    expect(a.locator(".pl-found-n")).to_be_visible()
+    b.wait_for_timeout(300)
+    expect_power(b, demo())
+    expect(b.locator(".pl-box-alpha input")).to_have_value("0.05")
+    expect(b.locator(".pl-found-n")).to_be_hidden()
+
+
+def test_screenshots_and_figure_export(open_page):
+    """Whole page and one exported figure (captions drawn inside it) saved to tests/artifacts/."""
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    gp = open_page(viewport=(1600, 1000))
+    page = gp.page
+    page.wait_for_timeout(400)
+    page.screenshot(path=str(ARTIFACTS / "explorer.png"), full_page=True)
+    png = page.evaluate("""async () => {
+        const view = Bokeh.index.find_one(Bokeh.documents[0].get_model_by_name('densities'));
+        const blob = await view.export('png', true).to_blob();
+        const u = new Uint8Array(await blob.arrayBuffer()); let s = '';
+        for (let i = 0; i < u.length; i += 0x8000) s += String.fromCharCode(...u.subarray(i, i + 0x8000));
+        return btoa(s); }""")
+    data = base64.b64decode(png)
+    assert data[:8] == b"\x89PNG\r\n\x1a\n"
+    (ARTIFACTS / "densities-export.png").write_bytes(data)
+    page.locator(".pl-design select").select_option(label=pc.get_design("proportion-exact").title)
+    page.wait_for_function("() => Bokeh.documents[0].get_model_by_name('density-bars-null')"
+                           ".data.x.length > 0")
+    page.wait_for_timeout(300)
+    page.screenshot(path=str(ARTIFACTS / "explorer-exact.png"), full_page=True)
