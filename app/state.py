@@ -23,7 +23,7 @@ from powercore import Curve, Densities, Design, InvalidParameter, NoSolution, Re
 
 from .text import error_text
 
-__all__ = ["DEMO", "ExplorerState", "Snapshot", "directions", "safe_densities"]
+__all__ = ["DEMO", "ExplorerState", "Snapshot", "directions"]
 
 log = logging.getLogger("powerlens.app")
 
@@ -263,58 +263,13 @@ class ExplorerState(param.Parameterized):
         result = pc.evaluate(sc)
         lo, hi = pc.effect_range(result)
         a, b = pc.n_range(result)
-        dens = safe_densities(result.solved, self.scale)
-        d = pc.get_design(sc.design)
-        interval = getattr(d, "custom_power", None) is not None
+        dens = pc.densities(result.solved, self.scale)
         region = tuple(_nan_to_none(c) for c in dens.critical)
-        if interval:   # the core reports the interval; put it on the densities' scale
-            data_lo, data_hi = result.critical["data"]
-            if self.scale == "data":
-                region = (data_lo, data_hi)
-            else:
-                x_data = safe_densities(result.solved, "data").x
-                order = np.argsort(x_data)
-                region = tuple(None if v is None else float(np.interp(v, x_data[order], dens.x[order]))
-                               for v in (data_lo, data_hi))
+        interval = dens.rejects == "inside"
         return Snapshot(scenario=sc, result=result, densities=dens,
                         effect_curve=pc.curve_effect(result.solved, lo, hi, points=300),
                         n_curve=pc.curve_n(result.solved, a, b, points=300),
                         unit_name=self.unit_name, region=region, interval=interval)
-
-
-def safe_densities(scenario: Scenario, scale: str, points: int = 400) -> Densities:
-    """``powercore.densities``, or the same curves from differences of the CDF when the pdf fails.
-
-    scipy 1.17's ``nct.pdf`` raises OverflowError for large degrees of freedom (about 500 and
-    more, e.g. two groups of 250); the CDF, which powercore guards, still works there.
-    """
-    try:
-        dens = pc.densities(scenario, scale, points)
-        if np.all(np.isfinite(dens.null)) and np.all(np.isfinite(dens.alt)):
-            return dens
-    except (OverflowError, FloatingPointError, ValueError):
-        pass
-    d = pc.get_design(scenario.design)
-    if d.discrete:
-        raise ValueError("the probabilities of this exact design could not be computed")
-    p = dict(scenario.params)
-    st = d.statistic(p, d.group_sizes(p, scenario.n, integer=True))
-    lo, hi = (float(v) for v in pc.critical_values(st, scenario.alpha, scenario.direction))
-    (a0, b0), (a1, b1) = st.null.span(), st.alt.span()
-    t = np.linspace(float(min(a0, a1)), float(max(b0, b1)), points)
-    h = (t[1] - t[0]) / 2
-    f0 = (np.asarray(st.null.cdf(t + h)) - np.asarray(st.null.cdf(t - h))) / (2 * h)
-    f1 = (np.asarray(st.alt.cdf(t + h)) - np.asarray(st.alt.cdf(t - h))) / (2 * h)
-    label = f"test statistic {d.statistic_symbol}"
-    crit: tuple[float, float] = (lo, hi)
-    if scale == "data":
-        x = np.asarray(st.to_data(t), dtype=float)
-        jac = np.abs(np.gradient(x, t))
-        f0, f1 = f0 / jac, f1 / jac
-        crit = tuple(float(st.to_data(c)) if not math.isnan(c) else math.nan for c in (lo, hi))
-        t, label = x, d.estimate_label
-    return Densities(np.asarray(t, dtype=float), np.clip(f0, 0, None), np.clip(f1, 0, None), crit, scale,
-                     False, label)
 
 
 def directions(d: Design) -> tuple[str, ...]:

@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import minimize_scalar
 
+from . import adjust
 from .design import get_design
 from .engine import detectable_effect, power_at, sample_size
 from .errors import InvalidParameter, NoSolution
@@ -88,7 +89,7 @@ def best_ratio(scenario: Scenario, *, total: float | None = None, budget: float 
     else:
         budget = _positive("budget", budget)
     p = dict(scenario.params)
-    alpha = scenario.alpha
+    alpha = adjust.test_alpha(scenario.alpha, scenario.adjustments)
 
     def sizes(r):
         n1 = total / (1 + r) if total is not None else budget / (c1 + r * c2)
@@ -128,7 +129,7 @@ def budget_plan(scenario: Scenario, budget: float, costs=(1.0, 1.0)) -> BudgetPl
     if n1 < d.min_n(p):
         raise NoSolution("budget", f"buys fewer than the design's minimum of {d.min_n(p)} {d.n.unit}", budget)
     g1, g2 = (int(round(float(x))) for x in d.group_sizes(p, n1, integer=True))
-    alpha, direction = scenario.alpha, scenario.direction
+    alpha, direction = adjust.test_alpha(scenario.alpha, scenario.adjustments), scenario.direction
     power = float(power_at(d, p, n1, alpha, direction))
     try:
         det = detectable_effect(d, p, n1, alpha, direction, scenario.target_power)

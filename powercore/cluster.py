@@ -17,7 +17,6 @@ by any cluster size, and the design says so.
 from __future__ import annotations
 
 import numpy as np
-from scipy import special
 
 from .design import Design, Explanation, Statistic, fmt, register
 from .distributions import Normal, StudentT

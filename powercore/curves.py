@@ -6,6 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import adjust
 from .design import get_design
 from .engine import critical_values, power_at
 from .result import Result
@@ -41,6 +42,7 @@ class Densities:
     scale: str
     discrete: bool
     x_label: str
+    rejects: str = "outside"   # "inside": the rejection region lies between the critical values
 
 
 def effect_range(result: Result) -> tuple[float, float]:
@@ -73,7 +75,7 @@ def curve_effect(scenario: Scenario, lo: float, hi: float, points: int = 400) ->
     d = get_design(scenario.design)
     x = np.linspace(lo, hi, points)
     p = {**scenario.params, d.effect: x}
-    y = power_at(d, p, scenario.n, scenario.alpha, scenario.direction)
+    y = power_at(d, p, scenario.n, adjust.test_alpha(scenario.alpha, scenario.adjustments), scenario.direction)
     return Curve(x, np.broadcast_to(y, x.shape).copy(), f"{d.effect_label} ({d.param(d.effect).unit})")
 
 
@@ -81,7 +83,8 @@ def curve_n(scenario: Scenario, lo: int, hi: int, points: int = 400) -> Curve:
     """Power against whole sample sizes from ``lo`` to ``hi`` (at most ``points`` of them)."""
     d = get_design(scenario.design)
     x = np.unique(np.round(np.linspace(lo, hi, points)))
-    y = power_at(d, dict(scenario.params), x, scenario.alpha, scenario.direction)
+    y = power_at(d, dict(scenario.params), x, adjust.test_alpha(scenario.alpha, scenario.adjustments),
+                 scenario.direction)
     return Curve(x, np.broadcast_to(y, x.shape).copy(), f"sample size ({d.n.unit})")
 
 
@@ -93,7 +96,13 @@ def densities(scenario: Scenario, scale: str = "statistic", points: int = 400) -
     p = dict(scenario.params)
     sizes = d.group_sizes(p, scenario.n, integer=True)
     st = d.statistic(p, sizes)
-    lo, hi = (float(v) for v in critical_values(st, scenario.alpha, scenario.direction))
+    alpha = adjust.test_alpha(scenario.alpha, scenario.adjustments)
+    rejects = "outside"
+    if d.custom_power is not None:
+        rejects = "inside"
+        lo, hi = (float(v) for v in d.inside_region(p, sizes, alpha)[:2])
+    else:
+        lo, hi = (float(v) for v in critical_values(st, alpha, scenario.direction))
     a0, b0 = st.null.span()
     a1, b1 = st.alt.span()
     left, right = float(min(a0, a1)), float(max(b0, b1))
@@ -114,4 +123,4 @@ def densities(scenario: Scenario, scale: str = "statistic", points: int = 400) -
     else:
         crit = (lo, hi)
     return Densities(np.asarray(t), np.asarray(f0, dtype=float), np.asarray(f1, dtype=float),
-                     crit, scale, d.discrete, label)
+                     crit, scale, d.discrete, label, rejects)

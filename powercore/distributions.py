@@ -149,8 +149,16 @@ class StudentT(_Continuous):
     def pdf(self, x):
         if self.central:
             return stats.t.pdf(x, self.df)
-        with _quiet():
-            return np.nan_to_num(stats.nct.pdf(x, self.df, self.nc), nan=0.0)
+        try:
+            with _quiet():
+                f = _arr(stats.nct.pdf(x, self.df, self.nc))
+            if np.all(np.isfinite(f)):
+                return f
+        except (OverflowError, FloatingPointError):
+            pass  # scipy 1.17: nct.pdf overflows (tgamma) from about 500 df
+        x = _arr(x)
+        h = 1e-4 * (1.0 + np.abs(x))
+        return np.maximum((nct_cdf(x + h, self.df, self.nc) - nct_cdf(x - h, self.df, self.nc)) / (2 * h), 0.0)
 
     def cdf(self, x):
         if self.central:

@@ -54,9 +54,10 @@ def power_at(design: Design, p: dict, n, alpha, direction: str, integer: bool = 
 
 
 def power(scenario: Scenario) -> float:
-    """Power of the scenario at its own n, effect and α."""
+    """Power of the scenario at its own n, effect and (per-test) α."""
     d = get_design(scenario.design)
-    return float(power_at(d, dict(scenario.params), scenario.n, scenario.alpha, scenario.direction))
+    alpha = adjust.test_alpha(scenario.alpha, scenario.adjustments)
+    return float(power_at(d, dict(scenario.params), scenario.n, alpha, scenario.direction))
 
 
 # ---- sample size --------------------------------------------------------------

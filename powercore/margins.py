@@ -274,11 +274,12 @@ class EquivalenceMeans(TwoGroups, Design):
         return tost_power(p["delta"], p["margin"], se, df, alpha)
 
     def inside_region(self, p, sizes, alpha):
-        """Equivalence is concluded for −M + t·SE ≤ D ≤ M − t·SE, i.e. D/SE in [t − M/SE, M/SE − t]."""
+        """Equivalence is concluded for −M + t·SE ≤ D ≤ M − t·SE; on the scale of the statistic drawn,
+        T = (D − M)/SE, that is t − 2M/SE ≤ T ≤ −t. Returns (statistic lo, hi, data lo, hi)."""
         se, df = self._sd_diff(p, sizes)
         t = float(-special.stdtrit(df, alpha))
         m = p["margin"]
-        return t - m / se, m / se - t, -m + t * se, m - t * se
+        return t - 2 * m / se, -t, -m + t * se, m - t * se
 
     def statistic(self, p, sizes):
         # the upper one-sided test, H0 δ ≥ M, for the working and the density view
