@@ -5,7 +5,7 @@ then call :func:`evaluate`; the :class:`Result` holds the numbers, the working
 and ``to_dict()`` for the JSON record. ``designs()`` lists the registered designs.
 """
 # Importing the family modules registers their designs, in this order (the picker's order).
-from . import means, proportions, correlation, margins, survival, cluster  # noqa: F401,I001
+from . import means, proportions, correlation, anova, chisquare, regression, paired_props, rates, rank, margins, survival, cluster  # noqa: F401,I001
 from .curves import Curve, Densities, curve_effect, curve_n, densities, effect_range, n_range
 from .design import Design, designs, get_design
 from .engine import (critical_values, detectable_effect, evaluate, power, power_at, sample_size,

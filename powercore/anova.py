@@ -3,9 +3,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from ._whole import WholeParams
 from .design import Design, Explanation, Statistic, fmt, register
 from .distributions import FDist
-from ._whole import WholeParams
 from .spec import NSpec, ParamSpec
 
 __all__ = ["OneWayAnova", "f_from_means", "sd_of_means"]
@@ -47,8 +47,8 @@ class OneWayAnova(WholeParams, Design):
              "(divisor k); f_from_means(means, sd) computes it from planned means. Cohen's "
              "conventional small, medium and large f are 0.10, 0.25 and 0.40.",
              "Groups are of equal size n; the total is N = k·n.",
-             "Checked against simulation of scipy.stats.f_oneway (tests/test_designs_more.py): power "
-             "agrees within Monte Carlo error (measured difference 0.003 at k = 4, n = 20, f = 0.3).",
+             "Exact, and checked against simulation of scipy.stats.f_oneway (tests/test_designs_more.py): at "
+             "k = 4, n = 20, f = 0.3 power is 0.5786 and 100 000 simulated studies gave 0.5785 (SE 0.0016).",
              "The critical value in data units is the SD of the sample means, s_m = σ·√(F(k − 1)/(k·n)), "
              "with the planned σ in place of the pooled sample SD.")
     params = (ParamSpec("delta", "SD of the group means σ_m", "data units", 2.5,

@@ -111,9 +111,9 @@ class ChiSquareGoodnessOfFit(_ChiSquare):
               "alternative (Cohen 1988, ch. 7; the limiting power of the chi-square test, Mitra 1958)")
     notes = ("w_from_proportions(p0, p1) computes w from the null and alternative cell proportions. "
              "Cohen's conventional small, medium and large w are 0.1, 0.3 and 0.5.",
-             "Checked against simulation of scipy.stats.chisquare (tests/test_designs_more.py): the "
-             "approximation is within 0.01 of simulated power at N = 200, 4 cells, w = 0.2 "
-             "(measured difference 0.004).") + _ChiSquare.common_notes
+             "Checked against simulation of scipy.stats.chisquare (tests/test_designs_more.py): at N = 200, "
+             "4 equal null cells, w = 0.2 the approximation gives 0.654 and 100 000 simulated studies "
+             "0.655 (SE 0.0015).", *_ChiSquare.common_notes)
     params = (W, _df(3.0, "number of cells minus 1 (minus any parameters estimated from the data)"))
 
     def df_text(self, p):
@@ -131,9 +131,10 @@ class ChiSquareIndependence(_ChiSquare):
              "estimated, which is what costs the (r − 1) + (c − 1) degrees of freedom. For a 2 × 2 table "
              "w equals |φ|.",
              "Checked against simulation of scipy.stats.chi2_contingency without Yates' correction "
-             "(tests/test_designs_more.py): within 0.01 of simulated power at N = 150, a 2 × 3 table, "
-             "w = 0.25 (measured difference 0.005). Yates' correction (the scipy default for 2 × 2) "
-             "lowers power below this figure.") + _ChiSquare.common_notes
+             "(tests/test_designs_more.py): at N = 150, a 2 × 3 table with w = 0.243, the approximation "
+             "gives 0.762 and 25 000 simulated studies 0.773 (SE 0.003), so it is about 0.01 low. Yates' "
+             "correction (the scipy default for 2 × 2 tables) lowers power below this design's figure.",
+             *_ChiSquare.common_notes)
     params = (W, _df(1.0, "(rows − 1) × (columns − 1) of the table; 1 for a 2 × 2 table"))
     n = NSpec("observations", "observations", 2, 100, (5, 500),
               "total number of observations N in the table, over all cells")
