@@ -189,7 +189,9 @@ class FDist(_Continuous):
     name = "F"
 
     def __init__(self, d1, d2, nc=0.0):
-        self.d1, self.d2, self.nc = _arr(d1), _arr(d2), _arr(nc)
+        # scipy 1.17: ncf.sf is 0 for a subnormal noncentrality (2.5e-323); treat it as central
+        nc = _arr(nc)
+        self.d1, self.d2, self.nc = _arr(d1), _arr(d2), np.where(nc < 1e-300, 0.0, nc)
 
     def pdf(self, x):
         return _split(self.nc == 0, lambda x, a, b, n: stats.f.pdf(x, a, b),

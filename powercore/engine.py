@@ -19,7 +19,7 @@ from .solver import solve_increasing
 __all__ = ["critical_values", "detectable_effect", "evaluate", "power", "power_at",
            "sample_size", "significance_level"]
 
-EXACT_SCAN_LIMIT = 10**7
+EXACT_SCAN_LIMIT = 2 * 10**6
 ALPHA_RANGE = (1e-12, 1 - 1e-12)
 
 
@@ -117,22 +117,51 @@ def sample_size(design: Design, p: dict, alpha: float, direction: str, target: f
 
 
 def _exact_sample_size(design, p, alpha, direction, target, n_min, guess) -> SampleSize:
-    """Scan whole n for an exact discrete test: first n reaching the target, and where it stays."""
-    start, size = n_min, int(min(max(4 * guess + 200, 1000), 200_000))
+    """Scan whole n for an exact discrete test: first n reaching the target, and where it stays.
+
+    The scan starts at half the normal-theory guess unless a coarse look below that point finds
+    the target already reached there; it stops at EXACT_SCAN_LIMIT.
+    """
+    def pw(ns):
+        return power_at(design, p, ns, alpha, direction)
+
+    if guess > 10_000:
+        # saw-tooth swings are tiny this far out: find the crossing with the solver on whole n, then
+        # scan a window around it for the first n reaching the target and where power stays above it
+        root = solve_increasing(lambda n: pw(np.round(n)), target, float(n_min), math.inf, field="n",
+                                start=float(guess), what="the target power", xtol=0.5,
+                                limit=float(N_MAX))
+        lo_w = max(n_min, int(root) - 2000)
+        ns = np.arange(lo_w, int(root) + 2001, dtype=float)
+        powers = pw(ns)
+        hit = np.nonzero(powers >= target)[0]
+        if hit.size and (hit[0] > 0 or lo_w == n_min):
+            first = int(ns[hit[0]])
+            after = np.nonzero(powers[hit[0]:] < target)[0]
+            stays = first if after.size == 0 else int(ns[hit[0] + after[-1]]) + 1
+            below = (first - 1, float(powers[hit[0] - 1])) if hit[0] > 0 else None
+            return _make_sample_size(design, p, first, float(powers[hit[0]]), below, target, stays,
+                                     int(ns[-1]))
+    start = max(n_min, int(0.5 * guess))
+    if start > n_min:
+        coarse = np.unique(np.linspace(n_min, start, 400).round())
+        if np.any(pw(coarse) >= target):
+            start = n_min
+    size = int(min(max(guess, 1000), 100_000))
     first = None
     while start <= EXACT_SCAN_LIMIT:
-        ns = np.arange(start, start + size, dtype=float)
-        hit = np.nonzero(power_at(design, p, ns, alpha, direction) >= target)[0]
+        ns = np.arange(start, min(start + size, EXACT_SCAN_LIMIT + 1), dtype=float)
+        hit = np.nonzero(pw(ns) >= target)[0]
         if hit.size:
             first = int(ns[hit[0]])
             break
-        start, size = start + size, min(size * 2, 1_000_000)
+        start, size = start + size, min(size * 2, 200_000)
     if first is None:
         raise NoSolution("n", f"the exact search stops at {EXACT_SCAN_LIMIT:g} {design.n.unit}; "
                               "use the normal approximation for effects this small")
-    horizon = 2 * first + 100
+    horizon = first + min(max(100, first // 2), 100_000)
     ns = np.arange(max(n_min, first - 1), horizon + 1, dtype=float)
-    powers = power_at(design, p, ns, alpha, direction)
+    powers = pw(ns)
     at = int(np.nonzero(ns == first)[0][0])
     below_mask = np.nonzero(powers[at:] < target)[0]
     stays = first if below_mask.size == 0 else int(ns[at + below_mask[-1]]) + 1
