@@ -7,6 +7,7 @@ from ._whole import WholeParams
 from .design import Design, Explanation, Statistic, fmt, register
 from .distributions import FDist
 from .spec import NSpec, ParamSpec
+from .standard import PerSD
 
 __all__ = ["OneWayAnova", "f_from_means", "sd_of_means"]
 
@@ -32,7 +33,7 @@ K = ParamSpec("k", "number of groups k", "groups", 3.0,
 
 
 @register
-class OneWayAnova(WholeParams, Design):
+class OneWayAnova(PerSD, WholeParams, Design):
     id = "anova-oneway"
     title = "Several means (one-way ANOVA F test)"
     family = "several groups"
@@ -65,15 +66,6 @@ class OneWayAnova(WholeParams, Design):
 
     def effect_bounds(self, p):
         return 0.0, np.inf
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / p["sd"]
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * p["sd"]
-
-    def effect_scale(self, p):
-        return float(p["sd"])
 
     @staticmethod
     def groups(p) -> int:

@@ -21,6 +21,7 @@ import numpy as np
 from .design import Design, Explanation, Statistic, fmt, register
 from .distributions import Normal, StudentT
 from .spec import NSpec, ParamSpec
+from .standard import PerProportion, PerSD
 
 __all__ = ["ClusterMeansClusters", "ClusterMeansSize", "ClusterPropsClusters", "ClusterPropsSize",
            "design_effect"]
@@ -81,7 +82,7 @@ class _Cluster(Design):
             raise InvalidParameter("k", "must be a whole number of clusters", p["k"])
 
 
-class _ClusterMeans(_Cluster):
+class _ClusterMeans(PerSD, _Cluster):
     statistic_symbol = "t"
     estimate_label = "difference in arm means"
     test = "t test on cluster means, 2(k − 1) degrees of freedom"
@@ -89,15 +90,6 @@ class _ClusterMeans(_Cluster):
               "noncentral t on 2(k − 1) df")
     notes = ("Approximation: the design effect with cv is accurate for cluster sizes that vary moderately; "
              "with few clusters (k below about 10 per arm) prefer simulation.",)
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / p["sd"]
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * p["sd"]
-
-    def effect_scale(self, p):
-        return float(p["sd"])
 
     def _parts(self, p, sizes):
         k, m = self.km(p, sizes)
@@ -121,27 +113,12 @@ class _ClusterMeans(_Cluster):
                     f"{fmt(p['icc'])} = {fmt(de)}; {fmt(k * m)} subjects per arm count as {fmt(k * m / de)}")])
 
 
-class _ClusterProps(_Cluster):
-    standardized_name = "h"
+class _ClusterProps(PerProportion, _Cluster):
     estimate_label = "difference in proportions p̂2 − p̂1"
     test = "z test of two proportions inflated by the design effect"
     method = ("approximate: unpooled normal approximation with variance multiplied by the design effect "
               "1 + ((cv² + 1)m − 1)ρ (Eldridge, Ashby and Kerry 2006)")
     notes = ("Approximation: accurate when every arm has at least about 10 clusters and 10 expected events.",)
-
-    def effect_bounds(self, p):
-        return -p["p1"], 1 - p["p1"]
-
-    def standardized(self, p):
-        from .proportions import cohens_h
-        return cohens_h(p["p1"], p["p1"] + np.asarray(p["delta"]))
-
-    def from_standardized(self, p, s):
-        from .proportions import _from_h
-        return _from_h(p["p1"], s) - p["p1"]
-
-    def effect_scale(self, p):
-        return float(np.sqrt(p["p1"] * (1 - p["p1"])))
 
     def _parts(self, p, sizes):
         k, m = self.km(p, sizes)

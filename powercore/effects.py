@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .proportions import _from_h, cohens_h
+from .standard import cohens_h, proportion_from_h
 from .survival import hazard_ratio_from_medians, median_from_hazard_ratio
 
 __all__ = ["cohens_d", "cohens_h", "d_from_dz", "dz_from_d", "hazard_ratio_from_medians",
@@ -22,11 +22,6 @@ def cohens_d(mean1, mean2, sd):
 def mean_difference(d, sd):
     """The difference in data units for a standardized difference d and an SD."""
     return np.asarray(d, dtype=float) * sd
-
-
-def proportion_from_h(p_from, h):
-    """The proportion at Cohen's h from ``p_from`` (NaN when none exists)."""
-    return _from_h(p_from, h)
 
 
 def sd_of_differences(sd, rho):

@@ -290,7 +290,11 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
     std = float(d.standardized(p))
     a_side = f"α/2 = {fmt(alpha / 2)} in each tail" if direction == "two-sided" else f"α = {fmt(alpha)}"
 
+    rejects = "inside" if d.custom_power is not None else "outside"
+
     def region(lo_v, hi_v, sym):
+        if rejects == "inside":
+            return f"reject H0 if {fmt(lo_v)} ≤ {sym} ≤ {fmt(hi_v)} (the interval is empty if lower > upper)"
         parts = []
         if lo_v is not None:
             parts.append(f"{sym} ≤ {fmt(lo_v)}")
@@ -303,14 +307,9 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
         prob_parts.append(f"P({s} ≥ {fmt(stat_hi)} | H1) = {fmt(float(upper), 6)}")
     if stat_lo is not None:
         prob_parts.append(f"P({s} ≤ {fmt(stat_lo)} | H1) = {fmt(float(lower), 6)}")
-    rejects = "outside"
-    if d.custom_power is not None:   # the rejection region is an interval (equivalence)
-        rejects = "inside"
+    if rejects == "inside":   # the rejection region is an interval (equivalence)
         pw = float(power_at(d, p, n, alpha, direction))
         stat_lo, stat_hi, data_lo, data_hi = (float(v) for v in d.inside_region(p, sizes, alpha))
-
-        def region(lo_v, hi_v, sym):
-            return f"reject H0 if {fmt(lo_v)} ≤ {sym} ≤ {fmt(hi_v)} (the interval is empty if lower > upper)"
         prob_parts = [f"P({fmt(data_lo)} ≤ {d.estimate_label} ≤ {fmt(data_hi)} | H1), integrated over the "
                       f"estimated SE = {fmt(pw, 6)}"]
     groups = " + ".join(str(g) for g in int_sizes)

@@ -19,6 +19,7 @@ from .design import RATIO, TWO_GROUP_N, Design, Explanation, Statistic, TwoGroup
 from .distributions import Normal, StudentT
 from .errors import InvalidParameter
 from .spec import ParamSpec
+from .standard import PerProportion, PerSD
 
 __all__ = ["EquivalenceMeans", "NonInferiorityMeans", "NonInferiorityProportions", "SuperiorityMeans",
            "SuperiorityProportions", "tost_power"]
@@ -55,20 +56,11 @@ class _Margin(TwoGroups, Design):
         return self.sign * p["margin"]
 
 
-class _MeansMargin(_Margin):
+class _MeansMargin(PerSD, _Margin):
     statistic_symbol = "t"
     estimate_label = "difference in means ȳ2 − ȳ1"
     params = (_DELTA_MEAN, _SD, _MARGIN_MEAN, RATIO)
     method = "exact: noncentral t with n1 + n2 − 2 degrees of freedom, shifted by the margin"
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / p["sd"]
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * p["sd"]
-
-    def effect_scale(self, p):
-        return float(p["sd"])
 
     def statistic(self, p, sizes):
         n1, n2 = sizes
@@ -109,15 +101,11 @@ class SuperiorityMeans(_MeansMargin):
                         step=0.1), _SD, _MARGIN_MEAN, RATIO)
 
 
-class _PropsMargin(_Margin):
-    standardized_name = "h"
+class _PropsMargin(PerProportion, _Margin):
     estimate_label = "difference in proportions p̂2 − p̂1"
     params = (_P1, _DELTA_PROP, _MARGIN_PROP, RATIO)
     method = ("approximate: z test of p̂2 − p̂1 − δ0 with the unpooled variance at the planning values "
               "(Blackwelder 1982)")
-
-    def effect_bounds(self, p):
-        return -p["p1"], 1 - p["p1"]
 
     def check(self, p):
         super().check(p)
@@ -125,17 +113,6 @@ class _PropsMargin(_Margin):
         if not -p["p1"] < d0 < 1 - p["p1"]:
             raise InvalidParameter("margin", f"puts the null difference {d0:g} outside what p1 = {p['p1']:g} allows",
                                    p["margin"])
-
-    def standardized(self, p):
-        from .proportions import cohens_h
-        return cohens_h(p["p1"], p["p1"] + np.asarray(p["delta"]))
-
-    def from_standardized(self, p, s):
-        from .proportions import _from_h
-        return _from_h(p["p1"], s) - p["p1"]
-
-    def effect_scale(self, p):
-        return float(np.sqrt(p["p1"] * (1 - p["p1"])))
 
     def statistic(self, p, sizes):
         n1, n2 = sizes
@@ -216,7 +193,7 @@ def _tost(delta, margin, sigma_d, df, t):
 
 
 @register
-class EquivalenceMeans(TwoGroups, Design):
+class EquivalenceMeans(PerSD, TwoGroups, Design):
     id = "two-means-equivalence"
     title = "Two means, equivalence within ±M (two one-sided t tests)"
     family = "margins"
@@ -255,12 +232,6 @@ class EquivalenceMeans(TwoGroups, Design):
         x = p.get("delta")
         if x is not None and not -p["margin"] <= x <= p["margin"]:
             raise InvalidParameter("delta", f"must lie within the margin [−{p['margin']:g}, {p['margin']:g}]", x)
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / p["sd"]
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * p["sd"]
 
     def effect_scale(self, p):
         return float(p["margin"])

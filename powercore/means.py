@@ -6,6 +6,7 @@ import numpy as np
 from .design import RATIO, TWO_GROUP_N, Design, Explanation, Statistic, TwoGroups, fmt, register
 from .distributions import Normal, StudentT
 from .spec import NSpec, ParamSpec
+from .standard import PerRmsSD, PerSD
 
 __all__ = ["MeanT", "MeanZ", "PairedT", "TwoMeansT", "TwoMeansWelch", "TwoMeansZ"]
 
@@ -25,19 +26,10 @@ MU0 = ParamSpec("mu0", "mean under the null μ0", "data units", 0.0,
 ONE_SAMPLE_N = NSpec("observations", "observations", 2, 25, (2, 200), "number of observations")
 
 
-class _OneMean(Design):
+class _OneMean(PerSD, Design):
     family = "means"
     estimate_label = "sample mean x̄"
     params = (_delta("true mean minus μ0"), _sd("sd", "standard deviation σ", "SD of single observations"), MU0)
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / p["sd"]
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * p["sd"]
-
-    def effect_scale(self, p):
-        return float(p["sd"])
 
     def _se(self, p, sizes):
         return p["sd"] / np.sqrt(sizes[0])
@@ -88,7 +80,7 @@ class MeanT(_OneMean):
 
 
 @register
-class PairedT(Design):
+class PairedT(PerSD, Design):
     id = "paired-t"
     title = "Paired means (paired t test)"
     family = "means"
@@ -103,15 +95,7 @@ class PairedT(Design):
     params = (_delta("mean of the within-pair differences"),
               _sd("sd_diff", "SD of the differences σ_d", "SD of the within-pair differences"))
     n = NSpec("pairs", "pairs", 2, 20, (2, 200), "number of pairs (each pair measured twice)")
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / p["sd_diff"]
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * p["sd_diff"]
-
-    def effect_scale(self, p):
-        return float(p["sd_diff"])
+    sd_param = "sd_diff"
 
     def statistic(self, p, sizes):
         n = sizes[0]
@@ -135,7 +119,7 @@ class _TwoMeans(TwoGroups, Design):
 
 
 @register
-class TwoMeansZ(_TwoMeans):
+class TwoMeansZ(PerRmsSD, _TwoMeans):
     id = "two-means-z"
     title = "Two means, σ known (z test)"
     test = "two-sample z test with known SDs"
@@ -143,15 +127,6 @@ class TwoMeansZ(_TwoMeans):
     params = (_delta("mean of group 2 minus mean of group 1"),
               _sd("sd1", "SD in group 1 σ1", "SD of single observations in group 1"),
               _sd("sd2", "SD in group 2 σ2", "SD of single observations in group 2"), RATIO)
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / np.sqrt((p["sd1"] ** 2 + p["sd2"] ** 2) / 2)
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * np.sqrt((p["sd1"] ** 2 + p["sd2"] ** 2) / 2)
-
-    def effect_scale(self, p):
-        return float(np.sqrt((p["sd1"] ** 2 + p["sd2"] ** 2) / 2))
 
     def statistic(self, p, sizes):
         n1, n2 = sizes
@@ -170,7 +145,7 @@ class TwoMeansZ(_TwoMeans):
 
 
 @register
-class TwoMeansT(_TwoMeans):
+class TwoMeansT(PerSD, _TwoMeans):
     id = "two-means-t"
     title = "Two means, common σ (pooled t test)"
     statistic_symbol = "t"
@@ -179,15 +154,6 @@ class TwoMeansT(_TwoMeans):
     notes = ("The critical value in data units uses the planned σ in place of the pooled sample SD.",)
     params = (_delta("mean of group 2 minus mean of group 1"),
               _sd("sd", "common SD σ", "SD of single observations, the same in both groups"), RATIO)
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / p["sd"]
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * p["sd"]
-
-    def effect_scale(self, p):
-        return float(p["sd"])
 
     def statistic(self, p, sizes):
         n1, n2 = sizes
@@ -211,7 +177,7 @@ def welch_df(v1, v2, n1, n2):
 
 
 @register
-class TwoMeansWelch(_TwoMeans):
+class TwoMeansWelch(PerRmsSD, _TwoMeans):
     id = "two-means-welch"
     title = "Two means, unequal SDs (Welch test)"
     statistic_symbol = "t"
@@ -226,15 +192,6 @@ class TwoMeansWelch(_TwoMeans):
     params = (_delta("mean of group 2 minus mean of group 1"),
               _sd("sd1", "SD in group 1 σ1", "SD of single observations in group 1"),
               _sd("sd2", "SD in group 2 σ2", "SD of single observations in group 2"), RATIO)
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / np.sqrt((p["sd1"] ** 2 + p["sd2"] ** 2) / 2)
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * np.sqrt((p["sd1"] ** 2 + p["sd2"] ** 2) / 2)
-
-    def effect_scale(self, p):
-        return float(np.sqrt((p["sd1"] ** 2 + p["sd2"] ** 2) / 2))
 
     def statistic(self, p, sizes):
         n1, n2 = sizes

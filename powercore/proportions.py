@@ -6,21 +6,10 @@ import numpy as np
 from .design import RATIO, TWO_GROUP_N, Design, Explanation, Statistic, TwoGroups, fmt, register
 from .distributions import Binomial, Normal
 from .spec import NSpec, ParamSpec
+from .standard import PerProportion, cohens_h
 
 __all__ = ["OneProportionExact", "OneProportionNormal", "TwoProportions", "TwoProportionsArcsine",
            "cohens_h"]
-
-
-def cohens_h(p_from, p_to):
-    """Cohen's h: difference of the arcsine-square-root transforms, 2·asin√p_to − 2·asin√p_from."""
-    return 2 * np.arcsin(np.sqrt(p_to)) - 2 * np.arcsin(np.sqrt(p_from))
-
-
-def _from_h(p_from, h):
-    """The proportion whose h from ``p_from`` is ``h`` (NaN when none exists)."""
-    angle = (np.asarray(h) + 2 * np.arcsin(np.sqrt(p_from))) / 2
-    ok = (angle > 0) & (angle < np.pi / 2)
-    return np.where(ok, np.sin(np.clip(angle, 0, np.pi / 2)) ** 2, np.nan)
 
 
 def _prop(name, label, default, doc):
@@ -32,25 +21,13 @@ DELTA_P = ParamSpec("delta", "difference in proportions", "proportion", 0.15,
                     low=-1.0, high=1.0, soft=(-0.5, 0.5), step=0.005)
 
 
-class _OneProportion(Design):
+class _OneProportion(PerProportion, Design):
     family = "proportions"
-    standardized_name = "h"
+    base_param = "p0"
     estimate_label = "sample proportion p̂"
     params = (_prop("p0", "proportion under the null p0", 0.3, "proportion under the null hypothesis"),
               DELTA_P)
     n = NSpec("observations", "observations", 2, 60, (2, 500), "number of observations (trials)")
-
-    def effect_bounds(self, p):
-        return -p["p0"], 1 - p["p0"]
-
-    def standardized(self, p):
-        return cohens_h(p["p0"], p["p0"] + np.asarray(p["delta"]))
-
-    def from_standardized(self, p, s):
-        return _from_h(p["p0"], s) - p["p0"]
-
-    def effect_scale(self, p):
-        return float(np.sqrt(p["p0"] * (1 - p["p0"])))
 
 
 @register
@@ -112,22 +89,10 @@ class OneProportionExact(_OneProportion):
             noncentrality=f"(p1 − p0)/SE0 = {fmt(st.noncentrality)} (reference only)")
 
 
-class _TwoProportions(TwoGroups, Design):
+class _TwoProportions(PerProportion, TwoGroups, Design):
     family = "proportions"
     standardized_name = "h"
     n = TWO_GROUP_N
-
-    def effect_bounds(self, p):
-        return -p["p1"], 1 - p["p1"]
-
-    def standardized(self, p):
-        return cohens_h(p["p1"], p["p1"] + np.asarray(p["delta"]))
-
-    def from_standardized(self, p, s):
-        return _from_h(p["p1"], s) - p["p1"]
-
-    def effect_scale(self, p):
-        return float(np.sqrt(p["p1"] * (1 - p["p1"])))
 
 
 CONTINUITY = ParamSpec("continuity", "continuity correction", "", False,

@@ -8,6 +8,7 @@ import numpy as np
 from .design import RATIO, TWO_GROUP_N, Design, Explanation, Statistic, TwoGroups, fmt, register
 from .distributions import StudentT
 from .spec import NSpec, ParamSpec
+from .standard import PerSD
 
 __all__ = ["ARE", "SignedRank", "WilcoxonMannWhitney", "are_of"]
 
@@ -40,20 +41,11 @@ COMMON_NOTES = ("Approximation by efficiency: power is that of the t test with n
                 "The critical value in data units is a shift on the t test's scale, with the planned SD.")
 
 
-class _Rank(Design):
+class _Rank(PerSD, Design):
     family = "rank tests"
     statistic_symbol = "t"
     standardized_name = "d"
     effect_label = "shift δ"
-
-    def standardized(self, p):
-        return np.asarray(p["delta"]) / self.sd(p)
-
-    def from_standardized(self, p, s):
-        return np.asarray(s) * self.sd(p)
-
-    def effect_scale(self, p):
-        return float(self.sd(p))
 
 
 @register
@@ -78,7 +70,7 @@ class WilcoxonMannWhitney(TwoGroups, _Rank):
               ARE_SPEC, RATIO)
     n = TWO_GROUP_N
 
-    def sd(self, p):
+    def spread(self, p):
         return p["sd"]
 
     def statistic(self, p, sizes):
@@ -125,7 +117,7 @@ class SignedRank(_Rank):
     n = NSpec("pairs", "pairs", 2, 20, (2, 200),
               "number of pairs (or of observations, for one sample)")
 
-    def sd(self, p):
+    def spread(self, p):
         return p["sd_diff"]
 
     def statistic(self, p, sizes):
