@@ -218,7 +218,7 @@ def significance_level(design: Design, p: dict, n: int, direction: str, target: 
         return power_at(design, p, n, expit(u), direction)
 
     u = solve_increasing(f, target, lo, hi, field="alpha", start=float(logit(0.05)),
-                         what="the target power", xtol=1e-10)
+                         what="the target power", xtol=1e-10, steps=design.discrete)
     return float(expit(u))
 
 

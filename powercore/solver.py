@@ -43,14 +43,17 @@ def _first_at_or_above(xs, fs, target):
 
 def solve_increasing(f: Callable[[np.ndarray], np.ndarray], target: float, lo: float, hi: float, *,
                      field: str, start: float | None = None, what: str = "the target",
-                     xtol: float = 1e-10, rtol: float = 1e-12, limit: float = math.inf) -> float:
+                     xtol: float = 1e-10, rtol: float = 1e-12, limit: float = math.inf,
+                     steps: bool = False) -> float:
     """The ``x`` in ``[lo, hi]`` where the non-decreasing, vectorised ``f`` crosses ``target``.
 
     Returns ``lo`` when ``f(lo)`` already reaches the target. ``hi`` may be
     infinite: the bracket then grows geometrically from ``start`` (at most up to
     ``limit``). Raises :class:`NoSolution` naming ``field`` when the target is not
     reached. The bracket ends within ``xtol + rtol·|x|`` of each other; the value
-    returned is interpolated inside it, usually far closer to the crossing.
+    returned is interpolated inside it, usually far closer to the crossing. For a
+    step function (``steps=True``, exact discrete tests) the upper bracket end is
+    returned instead, where ``f`` is known to reach the target.
     """
     def g(x):
         x = np.asarray(x, dtype=float)
@@ -87,7 +90,7 @@ def solve_increasing(f: Callable[[np.ndarray], np.ndarray], target: float, lo: f
             break
         r = _interpolate(a, b, fa, fb, target)
         w = max((b - a) * wide, 0.25 * (xtol + rtol * abs(b)))
-        grid = np.array([r - w, r, r + w])
+        grid = np.unique([r - w, r, r + w, 0.5 * (a + b)])   # the midpoint guarantees halving
         grid = grid[(grid > a) & (grid < b)]
         if grid.size == 0:
             grid = np.array([0.5 * (a + b)])
@@ -102,4 +105,4 @@ def solve_increasing(f: Callable[[np.ndarray], np.ndarray], target: float, lo: f
         # the cluster missed the crossing: widen it next time, up to a plain bisection-like split
         captured = j > 0
         wide = 3e-4 if captured else min(0.25, wide * 30)
-    return _interpolate(a, b, fa, fb, target)
+    return b if steps else _interpolate(a, b, fa, fb, target)

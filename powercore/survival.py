@@ -35,8 +35,9 @@ def median_from_hazard_ratio(median_control, hr):
 def event_probability(hazard, accrual, follow_up):
     """P(event observed) with uniform accrual over ``accrual`` and ``follow_up`` further time units."""
     lam, a, f = (np.asarray(v, dtype=float) for v in (hazard, accrual, follow_up))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        tail = np.where(a > 0, (np.exp(-lam * f) - np.exp(-lam * (a + f))) / (lam * a), np.exp(-lam * f))
+    with np.errstate(divide="ignore", invalid="ignore"):   # expm1 keeps a tiny accrual period exact
+        la = lam * a
+        tail = np.where(la > 0, np.exp(-lam * f) * -np.expm1(-la) / np.where(la > 0, la, 1.0), np.exp(-lam * f))
     return 1.0 - tail
 
 
@@ -128,10 +129,11 @@ class LogRankSubjects(TwoGroups, _LogRank):
 
     def check(self, p):
         super().check(p)
-        if p["accrual"] + p["follow_up"] <= 0:
+        lam = math.log(2) / p["median_control"]
+        if float(event_probability(lam, p["accrual"], p["follow_up"])) < 1e-3:
             from .errors import InvalidParameter
-            raise InvalidParameter("follow_up", "with the accrual period must give some follow-up time",
-                                   p["follow_up"])
+            raise InvalidParameter("follow_up", "with the accrual period gives almost no events (under 0.1% "
+                                   "of the control arm); lengthen the follow-up", p["follow_up"])
 
     def events(self, p, sizes):
         n1, n2 = sizes
