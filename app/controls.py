@@ -20,7 +20,7 @@ from powercore import Design
 from powercore.spec import ParamSpec
 
 from .state import ExplorerState, directions
-from .text import DIRECTION_LABELS, FIND_LABELS, effect_unit, effect_value, num, param_unit, value_unit
+from .text import DIRECTION_LABELS, FIND_LABELS, MULTIPLICITY_LABELS, effect_unit, effect_value, num, param_unit, value_unit
 from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw
 
 __all__ = ["WATCHED", "NumberControl", "ScenarioControls", "nice_ceil"]
@@ -241,7 +241,7 @@ def _same(a, b, tol: float = 0.0) -> bool:
 
 
 WATCHED = ("design", "direction", "find", "alpha", "target_power", "n", "values", "unit_name", "scale",
-           "errors", "snapshot")
+           "adjustments", "errors", "snapshot")
 
 
 class ScenarioControls(pn.viewable.Viewer):
@@ -279,8 +279,26 @@ class ScenarioControls(pn.viewable.Viewer):
         self.n = NumberControl("n", "sample size n", d.n.unit, d.n.soft, 1, state.n,
                                lambda v: setattr(state, "n", v), integer=True, hard=(0, pc.scenario.N_MAX + 1),
                                doc=d.n.doc)
+        adj = state.adjustments
+        self.dropout = NumberControl("dropout", "expected dropout", "proportion lost", (0.0, 0.5), 0.01,
+                                     adj.get("dropout", 0.0), lambda v: state.set_adjustment("dropout", v),
+                                     hard=(-0.01, 1.0),
+                                     doc="share of those enrolled expected to give no outcome; n is the number "
+                                         "analysed and the enrolled n is n / (1 − dropout), rounded up")
+        self.comparisons = NumberControl("comparisons", "number of tests", "", (1, 10), 1,
+                                         adj.get("comparisons", 1),
+                                         lambda v: state.set_adjustment("comparisons", v), integer=True,
+                                         hard=(0, 10001),
+                                         doc="how many primary tests share the significance level α")
+        self.multiplicity = pn.widgets.RadioButtonGroup(
+            options={v: k for k, v in MULTIPLICITY_LABELS.items()}, value=adj.get("multiplicity", "none"),
+            **button_look(), sizing_mode="stretch_width", css_classes=["pl-multiplicity"],
+            stylesheets=[WIDGET_CSS], margin=(4, 10))
+        self.multiplicity.param.watch(
+            lambda e: e.new is not None and state.set_adjustment("multiplicity", e.new), "value")
         self._messages = {"design": self._small_message("design"), "find": self._small_message("find"),
-                          "direction": self._small_message("direction")}
+                          "direction": self._small_message("direction"),
+                          "adjustments.multiplicity": self._small_message("multiplicity")}
         self._design_box = pn.Column(sizing_mode="stretch_width", margin=0)
         self.effect: NumberControl | None = None
         self.standardized: NumberControl | None = None
@@ -297,6 +315,9 @@ class ScenarioControls(pn.viewable.Viewer):
             self._heading("Find"), self.find, self._messages["find"],
             self._heading("Direction of the alternative"), self.direction, self._messages["direction"],
             self.alpha, self.target, self._design_box, self.n,
+            self._heading("Adjustments"), self.dropout, self.comparisons,
+            self._heading("Correction for several tests"), self.multiplicity,
+            self._messages["adjustments.multiplicity"],
             sizing_mode="stretch_width", css_classes=["pl-controls"], margin=0)
         self.refresh()
 
@@ -419,6 +440,11 @@ class ScenarioControls(pn.viewable.Viewer):
                 w.value = bool(st.value(name))
         self.alpha.show(st.alpha)
         self.target.show(st.target_power)
+        adj = st.adjustments
+        self.dropout.show(adj.get("dropout"))
+        self.comparisons.show(adj.get("comparisons"))
+        if adj.get("multiplicity") in MULTIPLICITY_LABELS and self.multiplicity.value != adj["multiplicity"]:
+            self.multiplicity.value = adj["multiplicity"]
         self.n.show(st.n)
         self.effect.show(st.value(d.effect))
         self.standardized.set_range(*self._standardized_range(d))
@@ -454,7 +480,9 @@ class ScenarioControls(pn.viewable.Viewer):
         errors = self.state.errors
         controls: dict[str, Any] = {"alpha": self.alpha, "target_power": self.target, "n": self.n,
                                     d.effect: self.effect, "effect": self.effect,
-                                    "standardized": self.standardized}
+                                    "standardized": self.standardized,
+                                    "adjustments.dropout": self.dropout,
+                                    "adjustments.comparisons": self.comparisons}
         for name, w in self.others.items():
             if isinstance(w, NumberControl):
                 controls[name] = w

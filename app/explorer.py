@@ -9,6 +9,8 @@ import panel as pn
 from .controls import WATCHED, ScenarioControls
 from .figures import DensityFigure, EffectCurveFigure, NCurveFigure
 from .readout import Readout, Working
+from .share import SharePanel
+from .simulation_view import SimulationPanel
 from .state import DEMO, ExplorerState
 from .text import SCALE_LABELS
 from .theme import PANE_CSS, WIDGET_CSS, button_look
@@ -26,7 +28,7 @@ CAUTIONS = (
 class Explorer(pn.viewable.Viewer):
     """One session's page. ``state`` is created here unless given (tests pass their own)."""
 
-    def __init__(self, state: ExplorerState | None = None) -> None:
+    def __init__(self, state: ExplorerState | None = None, query: dict[str, str] | None = None) -> None:
         super().__init__()
         self.state = state if state is not None else ExplorerState()
         st = self.state
@@ -39,6 +41,8 @@ class Explorer(pn.viewable.Viewer):
         self.n_curve = NCurveFigure()
         self.readout = Readout(st)
         self.working = Working(st)
+        self.sim = SimulationPanel(st, on_result=self._simulated)
+        self.share = SharePanel(st, simulation=lambda: self.simulation)
         self.scale = pn.widgets.RadioButtonGroup(
             options={v: k for k, v in SCALE_LABELS.items()}, value=st.scale,
             **button_look(), css_classes=["pl-scale"],
@@ -46,10 +50,29 @@ class Explorer(pn.viewable.Viewer):
         self.scale.param.watch(lambda e: setattr(st, "scale", e.new), "value")
         st.param.watch(self._changed, list(WATCHED))
         self._layout = self._build_layout()
+        if query:
+            self.share.apply_link(query)
         self.refresh()
 
     def __panel__(self):
         return self._layout
+
+    @property
+    def simulation(self):
+        """The last simulation of the scenario behind the views, as a dict (None when there is none)."""
+        if getattr(self, "_simulation_override", None) is not None:
+            return self._simulation_override
+        return self.sim.current()
+
+    @simulation.setter
+    def simulation(self, value) -> None:
+        self._simulation_override = value
+
+    def _simulated(self) -> None:
+        snap = self.state.snapshot
+        if snap is not None:
+            self.n_curve.set_simulated(self.sim.points_for(snap.result.solved))
+        self.sim.refresh()
 
     def _changed(self, *events) -> None:
         """Schedule one refresh of the page on the server's event loop.
@@ -80,7 +103,10 @@ class Explorer(pn.viewable.Viewer):
                 for view in (self.densities, self.effect_curve, self.n_curve):
                     view.update(snap)
                 self.working.update()
+                self.n_curve.set_simulated(self.sim.points_for(snap.result.solved))
             self.readout.update()
+            self.sim.refresh()
+            self.share.update()
             if self.scale.value != st.scale:
                 self.scale.value = st.scale
 
@@ -104,6 +130,8 @@ class Explorer(pn.viewable.Viewer):
                                        margin=(10, 4, 0, 10)), self.scale, margin=0)
         main = pn.Column(
             self.readout,
+            self.sim,
+            self.share,
             draw_row,
             self.densities,
             pn.Row(self.effect_curve, self.n_curve, sizing_mode="stretch_width", margin=0,
@@ -115,6 +143,17 @@ class Explorer(pn.viewable.Viewer):
                          sizing_mode="stretch_width", margin=0, css_classes=["pl-page"])
 
 
+def session_query() -> dict[str, str]:
+    """The query fields of the page address that opened this session (a copied link)."""
+    args = getattr(pn.state, "session_args", None) or {}
+    out = {}
+    for k, vals in args.items():
+        if vals:
+            v = vals[-1]
+            out[k] = v.decode("utf-8", "replace") if isinstance(v, bytes) else str(v)
+    return out
+
+
 def create_app() -> Explorer:
-    """A fresh page with its own state, for one browser session."""
-    return Explorer()
+    """A fresh page with its own state, for one browser session (restoring a link's scenario)."""
+    return Explorer(query=session_query())

@@ -2,7 +2,7 @@
 
 Updates replace ``ColumnDataSource.data`` (numpy arrays) and move annotations
 in place; no figure is ever rebuilt and no pane swapped. Each figure carries
-its own caption (design, direction, α, effect, n, power) as a four-line Bokeh
+its own caption (design, direction, α, effect, spread, n, power, date, version) as one Bokeh
 ``Title`` inside the figure, so an exported PNG or SVG keeps it.
 """
 from __future__ import annotations
@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 import panel as pn
-from bokeh.models import (ColumnDataSource, HoverTool, Label, Legend, LegendItem, Range1d, Span, Title)
+from bokeh.models import (ColumnDataSource, HoverTool, Label, Legend, LegendItem, Range1d, Span, Title, Whisker)
 from bokeh.plotting import figure
 
 from .state import Snapshot
@@ -20,7 +20,7 @@ from .theme import CAPTION_PT, FONT, INK, PALETTE, style_figure
 
 __all__ = ["DensityFigure", "EffectCurveFigure", "NCurveFigure"]
 
-HEIGHT = 450
+HEIGHT = 540
 EMPTY = np.zeros(0)
 
 
@@ -31,7 +31,7 @@ def _base_figure(name: str, title: str, height: int = HEIGHT):
     style_figure(fig)
     # one Title of four lines (one text to lay out and paint, not four)
     cap = Title(text=" ", text_font_size=CAPTION_PT, text_font=FONT, text_color=INK, text_font_style="normal",
-                align="left", text_line_height=1.45, standoff=0, name=f"{name}-caption")
+                align="left", text_line_height=1.3, standoff=0, name=f"{name}-caption")
     fig.add_layout(cap, "below")
     return fig, cap
 
@@ -342,8 +342,28 @@ class NCurveFigure(_FigureView):
         fig.add_tools(HoverTool(renderers=[line], mode="vline", tooltips=[
             ("n", "@n{0}"), ("power", "@power{0.0000}")]))
         fig.add_tools(HoverTool(renderers=[point], tooltips=[("current n", "@n{0}"), ("power", "@power{0.0000}")]))
+        # simulated power at the n of each finished run, with its 95% Wilson interval
+        self.src_sim = ColumnDataSource(dict(n=EMPTY, power=EMPTY, lower=EMPTY, upper=EMPTY), name="n-sim")
+        fig.add_layout(Whisker(base="n", lower="lower", upper="upper", source=self.src_sim,
+                               line_color=PALETTE["power"], line_width=2.5, name="n-sim-interval"))
+        sim = fig.scatter("n", "power", source=self.src_sim, size=13, marker="diamond",
+                          fill_color=PALETTE["power"], line_color=INK, line_width=1.5, name="n-sim-points")
+        fig.add_tools(HoverTool(renderers=[sim], tooltips=[("n", "@n{0}"), ("simulated power", "@power{0.0000}"),
+                                                           ("95% interval", "@lower{0.0000} to @upper{0.0000}")]))
+        # inside the frame (right, below the curve), so the figure keeps the height of its neighbour
+        self._sim_legend = Legend(items=[LegendItem(label="simulated power, 95% interval", renderers=[sim])],
+                                  location="center_right", label_text_font_size="12.5pt", label_text_font=FONT,
+                                  label_text_color=INK, background_fill_alpha=0.85, border_line_color=None,
+                                  visible=False)
+        fig.add_layout(self._sim_legend)
         fig.yaxis.axis_label = "power"
         self._finish()
+
+    def set_simulated(self, points) -> None:
+        """Show simulated (n, power, low, high) points; none hides them."""
+        arr = np.asarray(points, dtype=float).reshape(-1, 4)
+        self.src_sim.data = dict(n=arr[:, 0], power=arr[:, 1], lower=arr[:, 2], upper=arr[:, 3])
+        self._sim_legend.visible = bool(len(arr))
 
     def update(self, snap: Snapshot) -> None:
         d, res, cur = snap.design, snap.result, snap.n_curve

@@ -41,6 +41,13 @@ def readout_rows(snap: Snapshot) -> list[tuple[str, str, str]]:
             ("alpha", "significance level α", num(res.alpha, 4) + (found if find == "alpha" else "")
              + ("" if not d.conservative_at(dict(sc.params))
                 else f"; actual size of the test {num(res.size, 4)} (at most α)"))]
+    adj = dict(sc.adjustments)
+    k = int(adj.get("comparisons", 1) or 1)
+    method = adj.get("multiplicity", "none")
+    if k > 1 or method != "none":
+        how = {"none": "no correction", "bonferroni": "Bonferroni", "sidak": "Šidák"}.get(method, method)
+        rows.append(("alpha-test", "significance level per test",
+                     f"{num(res.alpha_test, 4)} ({k} tests, {how}; α = {num(res.alpha, 4)} over all)"))
     crit = res.critical
     if snap.interval:   # rejects inside an interval (equivalence)
         u = f" {eunit}" if eunit else ""
@@ -61,7 +68,15 @@ def readout_rows(snap: Snapshot) -> list[tuple[str, str, str]]:
     n_text = f"n = {res.n} {d.n.unit}"
     if len(res.group_sizes) > 1:
         n_text += f" (groups {groups} = {res.total} {d.n.total_unit})"
-    rows.append(("n", "sample size" + (found if find == "n" else " used"), n_text))
+    rows.append(("n", "sample size analysed" + (found if find == "n" else ""), n_text))
+    enrolled = getattr(res, "enrolled_sizes", None) or res.group_sizes
+    e_total = getattr(res, "enrolled_total", None) or res.total
+    drop = float(adj.get("dropout", 0.0) or 0.0)
+    e_text = f"{enrolled[0]} {d.n.unit}"
+    if len(enrolled) > 1:
+        e_text += f" (groups {' + '.join(str(g) for g in enrolled)} = {e_total} {d.n.total_unit})"
+    e_text += f"; expected dropout {num(drop * 100, 3)}%" if drop > 0 else "; no dropout assumed"
+    rows.append(("enrolled", "sample size to enrol", e_text))
     ss = res.sample_size
     target = num(sc.target_power, 3)
     if ss is not None:

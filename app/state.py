@@ -43,6 +43,10 @@ DEMO = MappingProxyType({
 })
 
 
+#: no dropout, one test, no correction
+DEFAULT_ADJUSTMENTS = MappingProxyType({"dropout": 0.0, "comparisons": 1, "multiplicity": "none"})
+
+
 @dataclass(frozen=True)
 class Snapshot:
     """Everything the views draw for one good scenario."""
@@ -86,6 +90,8 @@ class ExplorerState(param.Parameterized):
     scale = param.Selector(default="statistic", objects=["statistic", "data"],
                            doc="draw the densities of the test statistic or of the estimate")
     unit_name = param.String(default="", doc="the planner's name for 'data units' (e.g. min)")
+    adjustments = param.Dict(default=dict(DEFAULT_ADJUSTMENTS),
+                             doc="dropout, number of tests and multiplicity correction (powercore checks them)")
 
     snapshot = param.Parameter(default=None, doc="Snapshot of the last good scenario (read-only)")
     errors = param.Dict(default={}, doc="field → message for the current inputs (read-only)")
@@ -111,7 +117,7 @@ class ExplorerState(param.Parameterized):
                     self.design = ids[0]
                 self._reset_for(self.current_design(), keep=False)
         self.param.watch(self._inputs_changed, ["design", "direction", "find", "alpha", "target_power",
-                                                "n", "values", "scale", "unit_name"])
+                                                "n", "values", "scale", "unit_name", "adjustments"])
         self.recompute()
 
     # ---- helpers ------------------------------------------------------------
@@ -220,13 +226,43 @@ class ExplorerState(param.Parameterized):
                 d = self.current_design()
                 self.values = {**self.values, d.effect: float(f"{solved.params[d.effect]:.4g}")}
 
+    def set_adjustment(self, name: str, value: Any) -> None:
+        """Set one adjustment (dropout, comparisons, multiplicity); a new dict, so watchers fire."""
+        if self.adjustments.get(name, object()) != value:
+            self.adjustments = {**self.adjustments, name: value}
+
+    def load(self, scenario: Scenario, unit_name: str | None = None) -> None:
+        """Show exactly ``scenario`` (from a record or a link): design, every value, n, α, find, target."""
+        d = pc.get_design(scenario.design)
+        with self._lock:
+            with param.parameterized.discard_events(self):
+                self.design = d.id
+                self.values = {spec.name: scenario.params.get(spec.name, spec.default) for spec in d.params}
+                if scenario.n is not None:
+                    self.n = scenario.n
+                elif not _whole(self.n) or self.n < d.n.minimum:
+                    self.n = d.n.default
+                if scenario.alpha is not None:
+                    self.alpha = scenario.alpha
+                allowed = directions(d)
+                self.direction = scenario.direction if scenario.direction in allowed else allowed[0]
+                self.find = scenario.find
+                self.target_power = scenario.target_power
+                self.adjustments = {**DEFAULT_ADJUSTMENTS, **dict(scenario.adjustments)}
+                if unit_name is not None:
+                    self.unit_name = unit_name
+                elif not any(s.unit == "data units" for s in d.params):
+                    self.unit_name = ""
+            self.recompute()
+            self.param.trigger("errors")   # the page refreshes even when the messages are unchanged
+
     def build_scenario(self) -> Scenario:
         """The scenario of the current inputs; raises InvalidParameter naming the field."""
         d = self.current_design()
         params = {spec.name: self.values.get(spec.name, spec.default) for spec in d.params}
         find = self.find
         kwargs = dict(design=d.id, direction=self.direction, find=find,
-                      target_power=self.target_power,
+                      target_power=self.target_power, adjustments=dict(self.adjustments),
                       n=None if find == "n" else _as_int(self.n),
                       alpha=None if find == "alpha" else self.alpha)
         if find == "effect":

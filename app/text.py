@@ -17,6 +17,7 @@ __all__ = ["DIRECTION_LABELS", "FIND_LABELS", "caption", "effect_unit", "effect_
 DIRECTION_LABELS = {"two-sided": "two-sided", "upper": "one-sided, upper", "lower": "one-sided, lower"}
 FIND_LABELS = {"power": "power", "n": "sample size", "effect": "smallest detectable effect",
                "alpha": "significance level α"}
+MULTIPLICITY_LABELS = {"none": "none", "bonferroni": "Bonferroni", "sidak": "Šidák"}
 SCALE_LABELS = {"statistic": "test statistic", "data": "estimate (data units)"}
 DATA_UNITS = "data units"
 
@@ -100,7 +101,8 @@ def field_label(design: Design | None, field: str) -> str:
     """Words for a scenario field, for messages placed at that field."""
     fixed = {"alpha": "significance level α", "target_power": "target power", "n": "sample size",
              "direction": "direction", "find": "find", "design": "design", "effect": "effect",
-             "standardized": "standardized effect"}
+             "standardized": "standardized effect", "adjustments.dropout": "expected dropout",
+             "adjustments.comparisons": "number of tests", "adjustments.multiplicity": "correction"}
     if design is not None:
         try:
             return design.param(field).label
@@ -125,16 +127,42 @@ def error_text(design: Design | None, err: Exception) -> str:
     return f"could not compute: {err}"
 
 
-def caption(design: Design, result: Result, unit_name: str = "") -> tuple[str, str, str, str]:
-    """Four short lines naming the scenario behind a figure (drawn inside each figure)."""
+def caption(design: Design, result: Result, unit_name: str = "", date: str | None = None) -> tuple[str, ...]:
+    """Short lines naming the scenario behind a figure (drawn inside each figure, so exports keep them).
+
+    Design; direction, α (and the per-test level when corrected), power; the effect in data units and
+    standardized; the other parameters (the spread among them); the sample size and what it counts;
+    the date and the Powerlens version.
+    """
+    import datetime as _dt
+
+    from powercore import __version__
+
     sc = result.solved
     unit = value_unit(effect_unit(design, unit_name))
-    eff = f"{design.effect_label} = {effect_value(design, sc.params, result.effect, 3)}"
+    eff = f"effect {design.effect_label} = {effect_value(design, sc.params, result.effect, 3)}"
     if unit:
         eff += f" {unit}"
-    eff += f" ({design.standardized_name} = {num(result.standardized_effect, 3)})"
+    eff += f" (standardized {design.standardized_name} = {num(result.standardized_effect, 3)})"
+    others = []
+    for spec in design.params:
+        if spec.name == design.effect:
+            continue
+        v = sc.params.get(spec.name)
+        if spec.kind == "bool":
+            others.append(f"{spec.label}: {'yes' if v else 'no'}")
+            continue
+        u = value_unit(param_unit(design, spec.name, unit_name))
+        others.append(f"{spec.label} = {num(v, 4)}" + (f" {u}" if u else ""))
     n_text = f"n = {result.n} {design.n.unit}"
     if len(result.group_sizes) > 1:
-        n_text += f" ({result.total} in all)"
-    line2 = f"{DIRECTION_LABELS[sc.direction]} · α = {num(result.alpha, 3)} · power = {num(result.power, 3)}"
-    return design.title, line2, eff, n_text
+        n_text += f" ({result.total} {design.n.total_unit})"
+    adj = dict(sc.adjustments)
+    if adj.get("dropout"):
+        n_text += f"; enrol {getattr(result, 'enrolled_total', result.total)} for {num(adj['dropout'] * 100, 3)}% dropout"
+    alpha = f"α = {num(result.alpha, 3)}"
+    if adj.get("comparisons", 1) > 1 and adj.get("multiplicity", "none") != "none":
+        alpha += f" ({adj['comparisons']} tests, {adj['multiplicity']}: {num(result.alpha_test, 3)} per test)"
+    line2 = f"{DIRECTION_LABELS[sc.direction]} · {alpha} · power = {num(result.power, 3)}"
+    stamp = f"Powerlens {__version__} · {date or _dt.datetime.now(_dt.timezone.utc).date().isoformat()}"
+    return (design.title, line2, eff, " · ".join(others) or "—", n_text, stamp)

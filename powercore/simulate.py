@@ -23,7 +23,7 @@ from .scenario import Scenario
 __all__ = ["MAX_REPS", "SimulationResult", "simulate", "wilson_interval"]
 
 MAX_REPS = 10_000_000
-CHUNK = 20_000
+CHUNK = 5_000   # small enough that a cancel is seen within a fraction of a second
 
 
 @dataclass(frozen=True)

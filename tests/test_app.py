@@ -91,7 +91,9 @@ def test_captions_inside_figures(app):
         titles = [t.text for t in fig.below if isinstance(t, Title)]
         assert titles == ["\n".join(expected)]
     assert "two-sided" in expected[1] and "α = 0.05" in expected[1]
-    assert "+20 min" in expected[2] and "n = 60 subjects in group 1" in expected[3]
+    assert "+20 min" in expected[2] and "d = 0.444" in expected[2]
+    assert "common SD σ = 45 min" in expected[3] and "n = 60 subjects in group 1" in expected[4]
+    assert expected[5] == f"Powerlens {pc.__version__} · {app.share.base.value[-10:]}"
 
 
 # ---- changes flow to the views --------------------------------------------------------------
@@ -168,7 +170,7 @@ def test_find_modes_show_found_value_read_only(app, find, unknown):
                 "alpha": f"α = {num(res.alpha, 4)}"}[find]
     assert expected in ctl._found.object
     assert app.state.snapshot.result.power == pytest.approx(res.power)
-    assert {"n": "sample size (found)", "effect": "effect (found)",
+    assert {"n": "sample size analysed (found)", "effect": "effect (found)",
             "alpha": "(found)"}[find] in app.readout.pane.object
     app.controls.find.value = "power"
     assert not ctl._found.visible and ctl._inputs.visible

@@ -108,7 +108,7 @@ def test_progress_and_cancel():
     sc = pc.Scenario("mean-z", n=20)
     res = simulate(sc, 100_000, seed=1, progress=lambda done, total: seen.append(done),
                    cancel=lambda: len(seen) >= 2)
-    assert res.cancelled and res.reps == seen[-1] == 40_000
+    assert res.cancelled and res.reps == seen[-1] == 10_000
 
 
 @pytest.mark.parametrize("kwargs, field", [({"reps": 10}, "reps"), ({"reps": 1.5}, "reps"),
