@@ -102,17 +102,23 @@ def sample_size(design: Design, p: dict, alpha: float, direction: str, target: f
     n_cont = u * u
     if n_cont > N_MAX:
         raise NoSolution("n", f"the target power needs more than {N_MAX:g} {design.n.unit}", n_cont)
-    n = max(n_min, math.ceil(n_cont - 1e-9))
-    for _ in range(200):  # the whole-number answer is within a step or two of the root
-        cand = np.arange(max(n_min, n - 1), n + 1, dtype=float)
+    n0 = max(n_min, math.ceil(n_cont - 1e-9))
+    lo, width = max(n_min, n0 - 1), 2
+    for _ in range(12):  # the whole-number answer is near the root; widen the window if rounding moved it
+        cand = np.arange(lo, n0 + width, dtype=float)
         powers = pw(cand)
-        if powers[-1] < target:
-            n += 1
-        elif cand.size == 2 and powers[0] >= target:
-            n -= 1
-        else:
-            below = (int(cand[0]), float(powers[0])) if cand.size == 2 else None
-            return _make_sample_size(design, p, n, float(powers[-1]), below, target, n, None, n_cont)
+        ok = np.nonzero(powers >= target)[0]
+        if ok.size == 0:
+            width *= 8
+            continue
+        k = int(ok[0])
+        if k == 0 and cand[0] > n_min:
+            lo = max(n_min, int(cand[0]) - width)
+            width *= 8
+            continue
+        n = int(cand[k])
+        below = (int(cand[k - 1]), float(powers[k - 1])) if k > 0 else None
+        return _make_sample_size(design, p, n, float(powers[k]), below, target, n, None, n_cont)
     raise NoSolution("n", "power does not rise steadily with n near the solution")
 
 

@@ -186,7 +186,7 @@ class TwoMeansWelch(PerRmsSD, _TwoMeans):
               "at the planned SDs (Satterthwaite 1946; Welch 1947)")
     notes = ("Approximation: the real df are random; fixing them at the planned SDs makes power "
              "accurate to about ±0.01 against simulation for 10 or more per group "
-             "(tests/test_simulation_checks.py measures it).",
+             "(tests/test_simulation.py measures it).",
              "The critical value in data units uses the planned SDs.")
     min_group2 = 2
     params = (_delta("mean of group 2 minus mean of group 1"),

@@ -2,9 +2,12 @@
 from __future__ import annotations
 
 import math
+import numbers
 import types
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
+
+import numpy as np
 
 from . import adjust
 from .design import get_design
@@ -119,7 +122,7 @@ class Scenario:
 
 
 def _open_unit(name: str, value: Any) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
         raise InvalidParameter(name, "must be a number in (0, 1)", value)
     x = float(value)
     if not (math.isfinite(x) and 0.0 < x < 1.0):
@@ -128,8 +131,10 @@ def _open_unit(name: str, value: Any) -> float:
 
 
 def _whole(name: str, value: Any) -> int:
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
         raise InvalidParameter(name, "must be a whole number", value)
+    if not isinstance(value, numbers.Integral):
+        value = float(value)
     if isinstance(value, float) and not (math.isfinite(value) and value.is_integer()):
         raise InvalidParameter(name, "must be a whole number", value)
     if isinstance(value, float) and abs(value) > 1e15:

@@ -2,6 +2,9 @@
 from __future__ import annotations
 
 import math
+import numbers
+
+import numpy as np
 from dataclasses import dataclass
 
 from .errors import InvalidParameter
@@ -33,10 +36,10 @@ class ParamSpec:
     def check(self, value: object) -> float | bool:
         """Return ``value`` converted to the parameter's type, or raise InvalidParameter."""
         if self.kind == "bool":
-            if isinstance(value, bool):
-                return value
+            if isinstance(value, (bool, np.bool_)):
+                return bool(value)
             raise InvalidParameter(self.name, "must be true or false", value)
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
+        if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
             raise InvalidParameter(self.name, "must be a number", value)
         x = float(value)
         if not math.isfinite(x):
