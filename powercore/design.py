@@ -167,6 +167,8 @@ class TwoGroups:
         n2 = np.asarray(p["ratio"], dtype=float) * n1
         if integer:
             n2 = np.ceil(n2 - 1e-9)
+        else:   # the real-valued relaxation used by the solver never has fewer than the whole minimum
+            n2 = np.maximum(n2, self.min_group2)
         return n1, n2
 
 

@@ -100,9 +100,11 @@ def sample_size(design: Design, p: dict, alpha: float, direction: str, target: f
                          start=math.sqrt(min(max(guess, n_min + 0.5), float(N_MAX))),
                          what="the target power", xtol=1e-3, rtol=1e-7, limit=math.sqrt(N_MAX) * 1.01)
     n_cont = u * u
-    if n_cont > N_MAX:
+    if n_cont <= n_min * (1 + 1e-9) and pw(float(n_min), False) >= target:
+        n_cont = None   # the smallest allowed n already exceeds the target: no root inside the domain
+    elif n_cont > N_MAX:
         raise NoSolution("n", f"the target power needs more than {N_MAX:g} {design.n.unit}", n_cont)
-    n0 = max(n_min, math.ceil(n_cont - 1e-9))
+    n0 = n_min if n_cont is None else max(n_min, math.ceil(n_cont - 1e-9))
     lo, width = max(n_min, n0 - 1), 2
     for _ in range(12):  # the whole-number answer is near the root; widen the window if rounding moved it
         cand = np.arange(lo, n0 + width, dtype=float)

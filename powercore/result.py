@@ -25,7 +25,8 @@ class SampleSize:
 
     For exact discrete tests ``stays_from`` is the n from which power stays at or
     above the target (checked up to ``checked_to``); elsewhere it equals ``n``, and
-    ``n_continuous`` is the real-valued n at which power equals the target exactly.
+    ``n_continuous`` is the real-valued n at which power equals the target exactly (``None``
+    when even the smallest allowed n exceeds the target).
     """
 
     n: int

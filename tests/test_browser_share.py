@@ -225,9 +225,11 @@ def test_simulation_progress_cancel_and_other_session_unaffected(open_page):
     from playwright.sync_api import expect
     a = open_page().page
     b = open_page().page
-    d = pc.get_design("logrank-events")        # the slowest simulation: about 3 s for 100,000 here
-    a.locator(".pl-design select").select_option(label=d.title)
+    d = pc.get_design("logrank-events")        # the slowest simulation; at 1,000 events 100,000 runs take
+    a.locator(".pl-design select").select_option(label=d.title)   # well over 10 s, so Cancel comes first
     expect_power(a, pc.Scenario(design=d.id, params=d.defaults(), n=d.n.default))
+    type_into(a, "n", "1000")
+    expect_power(a, pc.Scenario(design=d.id, params=d.defaults(), n=1000))
     choose(a, "pl-sim-reps", "100,000")
     a.locator(".pl-sim-start button").click()
     expect(a.locator(".pl-sim-progress progress")).to_have_attribute("value", re.compile(r"^[1-9]\d*$"))

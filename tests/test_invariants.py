@@ -121,15 +121,13 @@ def falls_back(curve, floor):
 
 @by_design
 def test_power_does_not_fall_as_n_grows(design):
-    """With the effect on a tested side, once power reaches max(α, 0.5) it never falls as n grows (saw-tooth exact tests excepted).
-
-    Below that it may, as a property of the tests, measured here: the exact TOST power at
-    2-4 per group falls with n while below α (4.54e-4, 2.62e-4, 1.96e-4 at n = 2, 3, 4,
-    sd = margin = 1, δ = 0.5, α = 0.001, confirmed by direct integration); and under a
-    fractional ratio, the steps where only group 1 grows can lower power by up to about
-    0.0015 (Welch: the Satterthwaite df fall; pooled proportions and rates: the pooled
-    null variance moves), always below 0.5. No target power a solver is asked for is affected.
-    """
+    """With the effect on a tested side, once power reaches max(α, 0.5) it never falls as n grows (saw-tooth exact tests excepted)."""
+    # Below that it may, as a property of the tests, measured here: the exact TOST power at
+    # 2-4 per group falls with n while below α (4.54e-4, 2.62e-4, 1.96e-4 at n = 2, 3, 4,
+    # sd = margin = 1, δ = 0.5, α = 0.001, confirmed by direct integration); and under a
+    # fractional ratio, the steps where only group 1 grows can lower power by up to about
+    # 0.0015 (Welch: the Satterthwaite df fall; pooled proportions and rates: the pooled
+    # null variance moves), always below 0.5. No target power a solver is asked for is affected.
     if design.discrete:
         pytest.skip("exact discrete test: power is a saw-tooth in n; the solve-n test checks stays_from")
 
@@ -145,14 +143,12 @@ def test_power_does_not_fall_as_n_grows(design):
 
 @by_design
 def test_power_does_not_fall_as_the_effect_moves_away_from_the_null(design):
-    """On each tested side, once power reaches max(α, 0.5) it never falls as the effect moves further from the null.
-
-    Below that it may, for reasons of the test and not of the code: a two-sided exact test
-    that can only reject in one tail loses power as the effect moves toward the other; and
-    a normal approximation Φ((δ√n − z·σ0)/σ1(δ)) whose alternative SD σ1 shrinks with the
-    effect (proportions near 0 or 1, rates) falls while its argument is negative, which is
-    exactly while that tail's power is below 0.5.
-    """
+    """On each tested side, once power reaches max(α, 0.5) it never falls as the effect moves further from the null."""
+    # Below that it may, for reasons of the test and not of the code: a two-sided exact test
+    # that can only reject in one tail loses power as the effect moves toward the other; and
+    # a normal approximation Φ((δ√n − z·σ0)/σ1(δ)) whose alternative SD σ1 shrinks with the
+    # effect (proportions near 0 or 1, rates) falls while its argument is negative, which is
+    # exactly while that tail's power is below 0.5.
     def body(data, b):
         p, n, alpha, direction = data.draw(inputs(design))
         for side in sides(design, p, direction):
@@ -205,6 +201,14 @@ def test_solved_n_reaches_target_and_one_less_does_not(design):
                 assert float(pw(design, p, ss.stays_from - 1, alpha, direction)) < target
         else:
             assert ss.stays_from == n
+            # documented: n_continuous is the real-valued n at which power equals the target exactly,
+            # or None when the design's smallest n already exceeds the target
+            if ss.n_continuous is None:
+                assert n == n_min and float(pw(design, p, n_min, alpha, direction)) >= target
+            else:
+                at_root = float(pc.power_at(design, p, ss.n_continuous, alpha, direction, integer=False))
+                assert at_root == pytest.approx(target, abs=1e-5), \
+                    f"power {at_root:.6g} at n_continuous = {ss.n_continuous:g}"
     run(design, body, heavy=True)
 
 
