@@ -55,7 +55,7 @@ def scenario_schema() -> dict:
         "properties": {
             "schema_version": {"const": SCHEMA_VERSION},
             "design": {"enum": [d.id for d in designs()]},
-            "find": {"enum": list(FINDS), "description": "the unknown to solve for"},
+            "find": {"enum": list(FINDS), "description": "the unknown the calculation finds"},
             "direction": {"enum": list(DIRECTIONS), "description": "direction of the alternative"},
             "alpha": {"anyOf": [{"type": "number", "exclusiveMinimum": 0, "exclusiveMaximum": 1},
                                 {"type": "null"}], "description": "significance level"},

@@ -62,7 +62,7 @@ def assurance(scenario: Scenario, prior_mean: float, prior_sd: float, *, draws: 
         raise InvalidParameter("prior_mean", "must be a finite number", prior_mean)
     prior_sd = _positive("prior_sd", prior_sd, allow_zero=True)
     if scenario.n is None:
-        raise InvalidParameter("n", "is needed for assurance (solve for n first)", None)
+        raise InvalidParameter("n", "is needed for assurance (find the sample size first)", None)
     p = dict(scenario.params)
     alpha = adjust.test_alpha(scenario.alpha, scenario.adjustments)
     lo, hi = d.effect_bounds(p)
