@@ -90,7 +90,10 @@ def solve_increasing(f: Callable[[np.ndarray], np.ndarray], target: float, lo: f
             break
         r = _interpolate(a, b, fa, fb, target)
         w = max((b - a) * wide, 0.25 * (xtol + rtol * abs(b)))
-        grid = np.unique([r - w, r, r + w, 0.5 * (a + b)])   # the midpoint guarantees halving
+        pts = [r - w, r, r + w]
+        if steps or wide > 3e-4:   # a step function, or the cluster missed: the midpoint guarantees halving
+            pts.append(0.5 * (a + b))
+        grid = np.unique(pts)
         grid = grid[(grid > a) & (grid < b)]
         if grid.size == 0:
             grid = np.array([0.5 * (a + b)])
