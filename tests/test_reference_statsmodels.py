@@ -125,11 +125,9 @@ def test_two_sample_pooled_t_power(delta, sd, ratio, n1, alpha, direction):
     (-2.0, 5.0, 2.0, 2.0, 25, 0.1),
 ])
 def test_two_sample_z_power(delta, sd1, sd2, ratio, n1, alpha, direction):
-    """Two-sample z power with unequal known SDs equals statsmodels NormalIndPower after standardizing.
-
-    NormalIndPower has one σ: with r = n2/n1 its statistic is d·√(n1·r/(1 + r)), so
-    d = δ/√((σ1² + σ2²/r)·r/(1 + r)) reproduces SE = √(σ1²/n1 + σ2²/n2) exactly.
-    """
+    """Two-sample z power with unequal known SDs equals statsmodels NormalIndPower after standardizing."""
+    # NormalIndPower has one σ: with r = n2/n1 its statistic is d·√(n1·r/(1 + r)), so
+    # d = δ/√((σ1² + σ2²/r)·r/(1 + r)) reproduces SE = √(σ1²/n1 + σ2²/n2) exactly.
     a, b = whole_sizes(ratio, n1)
     r = b / a
     d = delta / math.sqrt((sd1 ** 2 + sd2 ** 2 / r) * r / (1 + r))
@@ -158,11 +156,9 @@ def test_two_proportions_arcsine_power(p1, delta, ratio, n1, alpha, direction):
 @pytest.mark.parametrize("direction", DIRECTIONS)
 @pytest.mark.parametrize("p1, delta, ratio, n1, alpha", PROPORTION_PAIRS)
 def test_two_proportions_pooled_power(p1, delta, ratio, n1, alpha, direction):
-    """Pooled-null two-proportion power (no correction) equals statsmodels power_proportions_2indep.
-
-    statsmodels' sample 1 carries prop2 + diff; we make it our group 2 (p1 + δ, n2 subjects)
-    with statsmodels' ratio = n1/n2, so that diff = δ and the directions map unchanged.
-    """
+    """Pooled-null two-proportion power (no correction) equals statsmodels power_proportions_2indep."""
+    # statsmodels' sample 1 carries prop2 + diff; we make it our group 2 (p1 + δ, n2 subjects)
+    # with statsmodels' ratio = n1/n2, so that diff = δ and the directions map unchanged.
     a, b = whole_sizes(ratio, n1)
     expected = power_proportions_2indep(delta, p1, b, ratio=a / b, alpha=alpha,  # statsmodels 0.15 stats.proportion
                                         alternative=SM[direction]).power
@@ -305,12 +301,10 @@ def _es_fisher(p):
     ("correlation-fisher", {"rho0": 0.2, "delta": 0.25}, _es_fisher, 3, 0),
 ])
 def test_normal_sample_sizes_are_ceiling_of_zt_ind_solve_power(design_id, params, effect_of, ddof, ratio, direction):
-    """z-type sample sizes (one-sample, two-sample, arcsine, Fisher z) are ceil of NormalIndPower's nobs1.
-
-    For Fisher z statsmodels' NormalIndPower(ddof=3).solve_power is unusable (its bracket
-    starts at nobs = 2, below ddof, and it returns 3.0000004), so the one-sample z problem
-    is solved with ddof = 0 and the 3 added back: nobs = nobs_z + ddof.
-    """
+    """z-type sample sizes (one-sample, two-sample, arcsine, Fisher z) are ceil of NormalIndPower's nobs1."""
+    # For Fisher z statsmodels' NormalIndPower(ddof=3).solve_power is unusable (its bracket
+    # starts at nobs = 2, below ddof, and it returns 3.0000004), so the one-sample z problem
+    # is solved with ddof = 0 and the 3 added back: nobs = nobs_z + ddof.
     p = {**params, "delta": -params["delta"] if direction == "lower" else params["delta"]}
     nobs1 = ddof + zt_ind_solve_power(effect_size=effect_of(p), nobs1=None, alpha=0.05, power=0.8, ratio=ratio,
                                       alternative=SM[direction])  # statsmodels 0.15 stats.power

@@ -130,3 +130,19 @@ def test_powercore_fdist_is_continuous_as_noncentrality_leaves_zero():
     central = float(FDist(3, 20, 0).sf(2.0))
     near = float(FDist(3, 20, 1e-8).sf(2.0))
     assert 0.0 <= near <= 1.0 and near == pytest.approx(central, abs=1e-6)
+
+
+def test_scipy_ncf_sf_is_still_wrong_at_the_smallest_subnormal_noncentrality():
+    """scipy.stats.ncf.sf(2.0, 3, 20, 5e-324) is still 0 (and warns that its series did not converge) instead of the central tail."""
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        value = stats.ncf.sf(2.0, 3, 20, 5e-324)
+    central = stats.f.sf(2.0, 3, 20)  # direct scipy computation (central F)
+    assert abs(value - central) > 0.1, (f"scipy fixed ncf.sf at subnormal noncentrality (got {value!r}); the "
+                                        "subnormal guard in powercore/distributions.py (FDist) may go")
+
+
+@pytest.mark.parametrize("nc", [5e-324, 1e-310, 1e-300])
+def test_powercore_fdist_at_subnormal_noncentrality_is_the_central_f(nc):
+    """FDist(3, 20, nc).sf(2.0) at subnormal or tiny nc equals the central F tail to 1e-12."""
+    assert float(FDist(3, 20, nc).sf(2.0)) == pytest.approx(stats.f.sf(2.0, 3, 20), rel=1e-12)
