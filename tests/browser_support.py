@@ -162,3 +162,24 @@ def open_page(browser, server):
     for gp in pages:
         assert gp.external == [], f"requests left 127.0.0.1: {gp.external}"
         assert gp.errors == [], f"browser console errors: {gp.errors}"
+
+
+POWER = '.pl-readout td[data-key="power"]'
+
+
+def demo(**changes):
+    """The page's invented demo scenario, optionally changed."""
+    import powercore as pc
+    from app.state import DEMO
+    sc = pc.Scenario(design=DEMO["design"], params=DEMO["params"], n=DEMO["n"], alpha=DEMO["alpha"],
+                     direction=DEMO["direction"], target_power=DEMO["target_power"])
+    return sc.replace(**changes) if changes else sc
+
+
+def expect_power(page, scenario) -> None:
+    """Wait until the page's power readout shows powercore's power for ``scenario``."""
+    import powercore as pc
+    from playwright.sync_api import expect
+    from app.text import num
+    want = num(pc.evaluate(scenario).power, 4)
+    expect(page.locator(POWER)).to_have_text(re.compile(rf"^{re.escape(want)}\b"), timeout=10000)

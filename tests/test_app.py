@@ -17,22 +17,11 @@ import powercore as pc
 from app.explorer import CAUTIONS, Explorer
 from app.readout import readout_rows
 from app.state import DEMO, ExplorerState
+from app_support import app, render  # noqa: F401  (app is a fixture)
 from app.text import caption, num
 
 DESIGN_IDS = [d.id for d in pc.designs()]
 
-
-def render(explorer: Explorer) -> Document:
-    doc = Document()
-    doc.add_root(explorer.__panel__().get_root(doc))
-    return doc
-
-
-@pytest.fixture
-def app():
-    explorer = Explorer()
-    explorer.doc = render(explorer)
-    return explorer
 
 
 def source(doc: Document, name: str) -> ColumnDataSource:

@@ -8,28 +8,16 @@ import json
 import re
 
 import pytest
-from bokeh.document import Document
 
 import powercore as pc
 from powercore.record import MAX_RECORD_BYTES
 from app import sharing
 from app.explorer import Explorer
 from app.state import DEMO, ExplorerState
+from app_support import app, render  # noqa: F401  (app is a fixture)
 
 DESIGN_IDS = [d.id for d in pc.designs()]
 
-
-def render(explorer: Explorer) -> Document:
-    doc = Document()
-    doc.add_root(explorer.__panel__().get_root(doc))
-    return doc
-
-
-@pytest.fixture
-def app():
-    explorer = Explorer()
-    explorer.doc = render(explorer)
-    return explorer
 
 
 def readout_value(app: Explorer, key: str) -> str:

@@ -12,26 +12,12 @@ import re
 import pytest
 
 import powercore as pc
-from app.state import DEMO
-from app.text import num
 from browser_support import *  # noqa: F401,F403  (fixtures: server, browser, open_page)
-from browser_support import ARTIFACTS, needs_browser
+from browser_support import ARTIFACTS, demo, expect_power, needs_browser
 
 pytestmark = [pytest.mark.browser, needs_browser]
 
-POWER = '.pl-readout td[data-key="power"]'
 
-
-def demo(**changes) -> pc.Scenario:
-    sc = pc.Scenario(design=DEMO["design"], params=DEMO["params"], n=DEMO["n"], alpha=DEMO["alpha"],
-                     direction=DEMO["direction"], target_power=DEMO["target_power"])
-    return sc.replace(**changes) if changes else sc
-
-
-def expect_power(page, scenario: pc.Scenario) -> None:
-    from playwright.sync_api import expect
-    want = num(pc.evaluate(scenario).power, 4)
-    expect(page.locator(POWER)).to_have_text(re.compile(rf"^{re.escape(want)}\b"), timeout=10000)
 
 
 def js_column(page, source: str, column: str) -> list[float]:

@@ -16,28 +16,14 @@ import pytest
 
 import powercore as pc
 from powercore.record import MAX_RECORD_BYTES
-from app.state import DEMO
-from app.text import num
 from browser_support import *  # noqa: F401,F403
-from browser_support import needs_browser
+from browser_support import demo, expect_power, needs_browser
 
 pytestmark = [pytest.mark.browser, needs_browser]
 
-POWER = '.pl-readout td[data-key="power"]'
 ALT_BLUE = (0x00, 0x72, 0xB2)
 POWER_ORANGE = tuple(round(255 * 0.45 + c * 0.55) for c in (0xE6, 0x9F, 0x00))   # fill_alpha 0.55 on white
 
-
-def demo(**changes) -> pc.Scenario:
-    sc = pc.Scenario(design=DEMO["design"], params=DEMO["params"], n=DEMO["n"], alpha=DEMO["alpha"],
-                     direction=DEMO["direction"], target_power=DEMO["target_power"])
-    return sc.replace(**changes) if changes else sc
-
-
-def expect_power(page, scenario: pc.Scenario) -> None:
-    from playwright.sync_api import expect
-    want = num(pc.evaluate(scenario).power, 4)
-    expect(page.locator(POWER)).to_have_text(re.compile(rf"^{re.escape(want)}\b"), timeout=10000)
 
 
 def type_into(page, key: str, text: str) -> None:
