@@ -23,7 +23,12 @@ from .state import ExplorerState, directions
 from .text import DIRECTION_LABELS, FIND_LABELS, MULTIPLICITY_LABELS, effect_unit, effect_value, num, param_unit, value_unit
 from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw
 
-__all__ = ["WATCHED", "NumberControl", "ScenarioControls", "nice_ceil"]
+__all__ = ["LIVE_DEBOUNCE_MS", "WATCHED", "NumberControl", "ScenarioControls", "nice_ceil"]
+
+#: How long the server holds a slider's change before acting on it (Panel's default is 50 ms).
+#: Bursts while dragging are already merged by the page, which starts one refresh at a time and
+#: lets the changes that arrive meanwhile share the next one; so the wait only adds latency.
+LIVE_DEBOUNCE_MS = 0
 
 
 def nice_ceil(x: float) -> float:
@@ -77,6 +82,7 @@ class NumberControl(pn.viewable.Viewer):
                                  show_value=False, tooltips=False, sizing_mode="stretch_width",
                                  margin=(10, 12, 4, 12), css_classes=[f"pl-slider-{key}"],
                                  stylesheets=[SLIDER_CSS], **kwargs)
+        self.slider._debounce = LIVE_DEBOUNCE_MS
         self.box = pn.widgets.FloatInput(value=_box_value(value, integer), width=130, margin=(0, 10, 0, 0),
                                          css_classes=[f"pl-box-{key}"], stylesheets=[WIDGET_CSS],
                                          step=step, format="0[.][000000]")
