@@ -184,6 +184,20 @@ def test_one_proportion_normal_discreteness_is_measured():
     print("\nOne proportion, score z test, α = 0.05 two-sided (exact binomial sums):\n" + "\n".join(rows))
 
 
+def test_one_proportion_normal_note_states_the_measured_error():
+    """The design's note quotes the gap to the real score test; recompute it by binomial sums (direct scipy)."""
+    note = " ".join(pc.get_design("proportion-normal").notes)
+    exact, _ = score_test_power(100, 0.3, 0.4)
+    size, _ = score_test_power(100, 0.3, 0.3)
+    approx = power("proportion-normal", {"p0": 0.3, "delta": 0.1}, 100)
+    assert f"actual size is {size:.3f}" in note and f"power {exact:.3f} against {approx:.3f}" in note
+    gaps = {n: max(abs(score_test_power(n, p0, p0 + dl)[0] - power("proportion-normal", {"p0": p0, "delta": dl}, n))
+                   for p0 in (0.1, 0.3, 0.5) for dl in (0.1, -0.1) if p0 + dl > 0)
+            for n in (30, 50, 100, 200, 500)}
+    assert max(gaps[n] for n in (30, 50, 100)) <= 0.07 < max(gaps[n] for n in (30, 50, 100)) + 0.01   # "up to ±0.07"
+    assert gaps[200] <= 0.015 and gaps[500] < 0.001   # "from n = 200 by 0.015 at most, from n = 500 under 0.001"
+
+
 # ---- correlation ----------------------------------------------------------------------
 def pearson_rate(rng, rho, n, reps, alpha=0.05):
     """Rejection rate of scipy.stats.pearsonr (two-sided, ρ0 = 0) on bivariate normal samples."""
