@@ -171,7 +171,8 @@ def _cmd_designs(args) -> int:
         print(f"{'':26s}   n counts {d.n.unit} (at least {d.n.minimum}); standardized effect {d.standardized_name}")
         for s in d.params:
             print(f"{'':26s}   {s.name:11s} {s.label} [{s.unit or '-'}], default {s.default}, domain "
-                  f"{s.domain_text() if s.kind == 'real' else 'true/false'}")
+                  f"{s.domain_text()}"
+                  + (f" (used when {s.used_when[0]} is {s.used_when[1]})" if s.used_when else ""))
     return 0
 
 
@@ -196,7 +197,9 @@ def _scenario_flags(c: argparse.ArgumentParser) -> None:
     c.add_argument("--alpha", type=float)
     c.add_argument("--target-power", dest="target_power", type=float)
     c.add_argument("--n", type=int, help="sample size in the design's unit (see `powerlens designs`)")
-    c.add_argument("-p", "--param", action="append", metavar="NAME=VALUE", help="a design parameter")
+    c.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
+                   help="a design parameter: a number, true/false, or one of a choice's names "
+                        "(e.g. -p parent=laplace; see `powerlens designs`)")
     c.add_argument("--json", help="a scenario or a whole assumptions record, as a JSON string")
     c.add_argument("--file", help="read the scenario or record from this JSON file ('-' for stdin)")
 

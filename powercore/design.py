@@ -115,6 +115,14 @@ class Design:
         """The highest power any n can give, with the reason, for designs where it is below 1."""
         return None
 
+    def normalize(self, p: dict, given) -> dict:
+        """The checked parameters ``p`` made consistent (``given``: what the caller passed).
+
+        A design whose parameters depend on each other (a choice that fixes a number) or that
+        reads older records lacking a newer parameter settles them here; the default keeps ``p``.
+        """
+        return p
+
     def check(self, p: dict) -> None:
         """Cross-parameter checks; raise InvalidParameter naming the field."""
         lo, hi = self.effect_bounds(p)

@@ -10,7 +10,7 @@ from .distributions import StudentT
 from .spec import NSpec, ParamSpec
 from .standard import PerSD
 
-__all__ = ["ARE", "SignedRank", "WilcoxonMannWhitney", "are_of"]
+__all__ = ["ARE", "PARENTS", "SignedRank", "WilcoxonMannWhitney", "are_of", "efficiency"]
 
 # Asymptotic relative efficiency of the Wilcoxon tests to the t test for a shift in a
 # parent distribution (Hodges and Lehmann 1956; Lehmann 1975, ch. 2): 12σ²(∫f²)².
@@ -25,16 +25,46 @@ def are_of(parent: str) -> float:
         raise ValueError(f"parent must be one of {sorted(ARE)}, got {parent!r}") from None
 
 
+#: the parent distributions offered by name, and "other" for an ARE typed by the planner
+PARENTS = (*ARE, "other")
+
+PARENT_SPEC = ParamSpec("parent", "parent distribution", "", "normal",
+                        "shape of the data the rank test will see; it fixes the efficiency against the t "
+                        "test (normal 3/π = 0.955, uniform 1, logistic π²/9 = 1.097, double exponential "
+                        "(Laplace) 1.5) and the distribution simulated; choose other to type the ARE",
+                        kind="choice", choices=PARENTS)
+
 ARE_SPEC = ParamSpec("are", "efficiency against the t test (ARE)", "ratio", ARE["normal"],
-                     "asymptotic relative efficiency of the rank test to the t test for the parent "
-                     "distribution: normal 3/π = 0.955, uniform 1, logistic π²/9 = 1.097, double "
-                     "exponential (Laplace) 1.5; never below 0.864 for a shift in any continuous parent "
-                     "(Hodges and Lehmann 1956)", low=0.864, low_closed=True, high=100.0,
-                     soft=(0.864, 2.0), step=0.001)
+                     "asymptotic relative efficiency of the rank test to the t test, used when the parent "
+                     "distribution is other (for a named parent it is that parent's value); never below "
+                     "0.864 for a shift in any continuous parent (Hodges and Lehmann 1956)",
+                     low=0.864, low_closed=True, high=100.0, soft=(0.864, 2.0), step=0.001,
+                     used_when=("parent", "other"))
+
+
+def efficiency(p) -> float:
+    """The ARE a rank design uses: the named parent's, or the typed ``are`` when the parent is other."""
+    parent = p.get("parent", "other")
+    return p["are"] if parent == "other" else ARE[parent]
+
+
+def _are_text(p) -> str:
+    parent = p.get("parent", "other")
+    where = "typed" if parent == "other" else f"{parent} parent"
+    return f"ARE = {fmt(efficiency(p))} ({where})"
+
+
+def _parent_for(are) -> str:
+    """The named parent whose ARE is ``are`` (to 1e-9), else "other": reads records made before ``parent``."""
+    for name, value in ARE.items():
+        if abs(float(are) - value) <= 1e-9:
+            return name
+    return "other"
+
 
 COMMON_NOTES = ("Approximation by efficiency: power is that of the t test with n·ARE observations in place "
-                "of n (Lehmann 1975). Choose the ARE from the parent distribution you expect; are_of(name) "
-                "gives the standard values.",
+                "of n (Lehmann 1975). Choose the parent distribution you expect (it sets the ARE), or "
+                "other to type the ARE; are_of(name) gives the standard values.",
                 "The rank tests are discrete: with very small groups some levels cannot be reached at all "
                 "(the signed-rank test with 5 pairs cannot reject two-sided at α = 0.05), which the "
                 "approximation does not see.",
@@ -46,6 +76,14 @@ class _Rank(PerSD, Design):
     statistic_symbol = "t"
     standardized_name = "d"
     effect_label = "shift δ"
+
+    def normalize(self, p, given):
+        p = dict(p)
+        if "parent" not in given and "are" in given:   # a record from before the parent choice
+            p["parent"] = _parent_for(p["are"])
+        if p["parent"] != "other":
+            p["are"] = ARE[p["parent"]]
+        return p
 
 
 @register
@@ -67,7 +105,7 @@ class WilcoxonMannWhitney(TwoGroups, _Rank):
                         "how far group 2's distribution is shifted from group 1's", soft=(-20.0, 20.0), step=0.1),
               ParamSpec("sd", "common SD σ", "data units", 10.0,
                         "SD of single observations, the same in both groups", low=0.0, soft=(0.5, 40.0), step=0.1),
-              ARE_SPEC, RATIO)
+              PARENT_SPEC, ARE_SPEC, RATIO)
     n = TWO_GROUP_N
 
     def spread(self, p):
@@ -75,7 +113,7 @@ class WilcoxonMannWhitney(TwoGroups, _Rank):
 
     def statistic(self, p, sizes):
         n1, n2 = sizes
-        a = p["are"]
+        a = efficiency(p)
         se = p["sd"] * np.sqrt(1 / n1 + 1 / n2) / np.sqrt(a)
         nc = p["delta"] / se
         df = a * (n1 + n2) - 2
@@ -83,14 +121,14 @@ class WilcoxonMannWhitney(TwoGroups, _Rank):
 
     def explain(self, p, sizes, st):
         n1, n2 = sizes
-        a = p["are"]
+        a = efficiency(p)
         df = fmt(a * (n1 + n2) - 2)
         return Explanation(
             se=(f"SE = σ·√(1/n1 + 1/n2)/√ARE = {fmt(p['sd'])}·√(1/{fmt(n1)} + 1/{fmt(n2)})/√{fmt(a)} "
                 f"= {fmt(st.se)}"),
             null=f"T ~ t({df})", alt=f"T ~ noncentral t({df}, λ = {fmt(st.noncentrality)})",
             noncentrality=f"λ = δ/SE = {fmt(p['delta'])}/{fmt(st.se)} = {fmt(st.noncentrality)}",
-            extra=[("effective sizes", f"ARE·n1 = {fmt(a * n1)}, ARE·n2 = {fmt(a * n2)}; "
+            extra=[("effective sizes", f"{_are_text(p)}; ARE·n1 = {fmt(a * n1)}, ARE·n2 = {fmt(a * n2)}; "
                     f"df = ARE·(n1 + n2) − 2 = {df}")])
 
 
@@ -113,7 +151,7 @@ class SignedRank(_Rank):
                         soft=(-20.0, 20.0), step=0.1),
               ParamSpec("sd_diff", "SD of the differences σ_d", "data units", 10.0,
                         "SD of the within-pair differences", low=0.0, soft=(0.5, 40.0), step=0.1),
-              ARE_SPEC)
+              PARENT_SPEC, ARE_SPEC)
     n = NSpec("pairs", "pairs", 2, 20, (2, 200),
               "number of pairs (or of observations, for one sample)")
 
@@ -122,7 +160,7 @@ class SignedRank(_Rank):
 
     def statistic(self, p, sizes):
         n = sizes[0]
-        a = p["are"]
+        a = efficiency(p)
         se = p["sd_diff"] / np.sqrt(a * n)
         nc = p["delta"] / se
         df = a * n - 1
@@ -130,10 +168,10 @@ class SignedRank(_Rank):
 
     def explain(self, p, sizes, st):
         n = sizes[0]
-        a = p["are"]
+        a = efficiency(p)
         df = fmt(a * n - 1)
         return Explanation(
             se=f"SE = σ_d/√(ARE·n) = {fmt(p['sd_diff'])}/√({fmt(a)}·{fmt(n)}) = {fmt(st.se)}",
             null=f"T ~ t({df})", alt=f"T ~ noncentral t({df}, λ = {fmt(st.noncentrality)})",
             noncentrality=f"λ = δ/SE = {fmt(p['delta'])}/{fmt(st.se)} = {fmt(st.noncentrality)}",
-            extra=[("effective size", f"ARE·n = {fmt(a * n)}; df = ARE·n − 1 = {df}")])
+            extra=[("effective size", f"{_are_text(p)}; ARE·n = {fmt(a * n)}; df = ARE·n − 1 = {df}")])

@@ -68,6 +68,7 @@ class Scenario:
                 params[spec.name] = None
                 continue
             params[spec.name] = spec.check(value)
+        params = d.normalize(params, self.params)
         d.check(params)
         object.__setattr__(self, "params", types.MappingProxyType(params))
 

@@ -22,6 +22,8 @@ RECORD_SCHEMA_PATH = pathlib.Path(__file__).with_name("schemas") / f"record-{SCH
 def _param_schema(spec) -> dict:
     if spec.kind == "bool":
         return {"type": "boolean", "description": spec.doc}
+    if spec.kind == "choice":
+        return {"enum": list(spec.choices), "description": f"{spec.label}: {spec.doc}"}
     out: dict = {"type": "number", "description": f"{spec.label} ({spec.unit}): {spec.doc}"}
     if math.isfinite(spec.low):
         out["minimum" if spec.low_closed else "exclusiveMinimum"] = spec.low

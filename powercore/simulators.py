@@ -467,10 +467,19 @@ def _rates(p, sizes, alpha, direction, reps, rng):
     return _z_reject(z, alpha, direction)
 
 
-def _parent(rng, are, shape):
-    """Standardized draws (mean 0, SD 1) from the parent distribution whose ARE against the t test is ``are``."""
-    known = {"normal": 3 / np.pi, "uniform": 1.0, "logistic": np.pi ** 2 / 9, "laplace": 1.5}
-    name = min(known, key=lambda k: abs(known[k] - are))
+_ARE_OF = {"normal": 3 / np.pi, "uniform": 1.0, "logistic": np.pi ** 2 / 9, "laplace": 1.5}
+
+
+def _parent_name(p) -> str:
+    """The parent to draw from: the chosen one, or for a typed ARE (parent other) the named parent nearest it."""
+    parent = p.get("parent", "other")
+    if parent != "other":
+        return parent
+    return min(_ARE_OF, key=lambda k: abs(_ARE_OF[k] - p["are"]))
+
+
+def _parent(rng, name, shape):
+    """Standardized draws (mean 0, SD 1) from the named parent distribution."""
     if name == "uniform":
         return rng.uniform(-np.sqrt(3), np.sqrt(3), shape)
     if name == "logistic":
@@ -483,18 +492,19 @@ def _parent(rng, are, shape):
 _WHY_ARE = "the efficiency (ARE) is reached only as n grows; at small n the approximation overstates power"
 
 
-@_register("wilcoxon-mann-whitney", test="scipy.stats.mannwhitneyu (asymptotic) on shifted draws from the parent "
-                                         "distribution matching the ARE", why=_WHY_ARE)
+@_register("wilcoxon-mann-whitney", test="scipy.stats.mannwhitneyu (asymptotic) on shifted draws from the chosen parent "
+                                         "distribution (for a typed ARE, the named parent nearest it)", why=_WHY_ARE)
 def _wmw(p, sizes, alpha, direction, reps, rng):
     n1, n2 = sizes
-    a = p["sd"] * _parent(rng, p["are"], (reps, n1))
-    b = p["delta"] + p["sd"] * _parent(rng, p["are"], (reps, n2))
+    a = p["sd"] * _parent(rng, _parent_name(p), (reps, n1))
+    b = p["delta"] + p["sd"] * _parent(rng, _parent_name(p), (reps, n2))
     return stats.mannwhitneyu(b, a, axis=1, alternative=_ALT[direction], method="asymptotic").pvalue <= alpha
 
 
 @_register("wilcoxon-signed-rank", test="scipy.stats.wilcoxon (normal approximation) on within-pair differences "
-                                        "from the parent distribution matching the ARE", why=_WHY_ARE)
+                                        "from the chosen parent distribution (for a typed ARE, the named parent "
+                                        "nearest it)", why=_WHY_ARE)
 def _signed_rank(p, sizes, alpha, direction, reps, rng):
     n = sizes[0]
-    dif = p["delta"] + p["sd_diff"] * _parent(rng, p["are"], (reps, n))
+    dif = p["delta"] + p["sd_diff"] * _parent(rng, _parent_name(p), (reps, n))
     return stats.wilcoxon(dif, axis=1, alternative=_ALT[direction], method="approx").pvalue <= alpha

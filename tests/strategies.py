@@ -92,6 +92,8 @@ def _value(design: Design, spec) -> st.SearchStrategy:
     """One parameter's value from its soft range, respecting open hard bounds."""
     if spec.kind == "bool":
         return st.booleans()
+    if spec.kind == "choice":
+        return st.sampled_from(spec.choices)
     lo, hi = float(spec.soft[0]), float(spec.soft[1])
     if _is_whole(design, spec):
         a = math.ceil(lo) if (spec.low_closed or lo > spec.low) else math.floor(lo) + 1

@@ -30,7 +30,7 @@ SEED = 20261201
 
 def power(design, params, n, alpha=0.05, direction=None):
     d = pc.get_design(design)
-    p = {**d.defaults(), **params}
+    p = d.normalize({**d.defaults(), **params}, params)   # as Scenario does (a bare ARE picks its parent)
     return float(pc.power_at(d, p, n, alpha, direction or d.directions[0]))
 
 
