@@ -102,8 +102,13 @@ def _clip_to(d, p, x):
 
 
 def power_distribution(scenario: Scenario, prior_mean: float, prior_sd: float,
-                       points: int = 2000) -> PowerDistribution:
-    """Power at ``points`` equally likely quantiles of the prior N(prior_mean, prior_sd²)."""
+                       points: int = 2000, grid: int | None = None) -> PowerDistribution:
+    """Power at ``points`` equally likely quantiles of the prior N(prior_mean, prior_sd²).
+
+    With ``grid`` (fewer than ``points``), power is computed at ``grid`` effects evenly spaced
+    between the outermost quantiles and interpolated linearly in between (for designs whose power
+    is costly to compute; power is smooth in the effect).
+    """
     d = get_design(scenario.design)
     prior_mean = _finite("prior_mean", prior_mean)
     prior_sd = _positive("prior_sd", prior_sd, allow_zero=True)
@@ -112,16 +117,23 @@ def power_distribution(scenario: Scenario, prior_mean: float, prior_sd: float,
     p = dict(scenario.params)
     alpha = adjust.test_alpha(scenario.alpha, scenario.adjustments)
     eff = _clip_to(d, p, prior_mean + prior_sd * special.ndtri((np.arange(points) + 0.5) / points))
+    at = eff
+    if grid is not None and 2 <= grid < points and eff[-1] > eff[0]:
+        at = np.linspace(eff[0], eff[-1], int(grid))
     with np.errstate(all="ignore"):
-        powers = np.asarray(power_at(d, {**p, d.effect: eff}, scenario.n, alpha, scenario.direction), dtype=float)
-    return PowerDistribution(effects=eff, powers=np.broadcast_to(powers, eff.shape).copy())
+        powers = np.broadcast_to(np.asarray(power_at(d, {**p, d.effect: at}, scenario.n, alpha, scenario.direction),
+                                            dtype=float), at.shape)
+    if at is not eff:
+        powers = np.interp(eff, at, powers)
+    return PowerDistribution(effects=eff, powers=np.array(powers))
 
 
-def assurance(scenario: Scenario, prior_mean: float, prior_sd: float, *, points: int = 2000) -> Assurance:
+def assurance(scenario: Scenario, prior_mean: float, prior_sd: float, *, points: int = 2000,
+              grid: int | None = None) -> Assurance:
     """Assurance of the scenario at its n and α for an effect ~ N(prior_mean, prior_sd²).
 
     The spread of power (quantiles, the chance of reaching the target power) comes from
-    :func:`power_distribution` with ``points`` quantiles of the prior.
+    :func:`power_distribution` with ``points`` quantiles of the prior (and its ``grid``).
     """
     d = get_design(scenario.design)
     prior_mean = _finite("prior_mean", prior_mean)
@@ -153,7 +165,7 @@ def assurance(scenario: Scenario, prior_mean: float, prior_sd: float, *, points:
                     hi - 1e-12 * (1 + abs(hi)) if math.isfinite(hi) else np.inf)
         value = float(np.sum(_GH_W * pw(x)) / math.sqrt(2 * math.pi))
         method = "numerical integration (80-point Gauss–Hermite; prior clipped to the effect's domain)"
-    dist = power_distribution(scenario, prior_mean, prior_sd, points)
+    dist = power_distribution(scenario, prior_mean, prior_sd, points, grid)
     qs = {f"{int(q * 100)}%": dist.quantile(q) for q in (0.05, 0.25, 0.5, 0.75, 0.95)}
     return Assurance(assurance=value, method=method, prior_mean=prior_mean, prior_sd=prior_sd,
                      power_at_prior_mean=float(pw(np.asarray(_clip_to(d, p, prior_mean)))), quantiles=qs,
