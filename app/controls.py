@@ -226,6 +226,22 @@ class NumberControl(pn.viewable.Viewer):
         self._on_change(v)
 
 
+def _choice_options(d: Design, spec: ParamSpec) -> dict[str, str]:
+    """A choice's options, label → value; a choice that brings another parameter into use says so."""
+    out = {}
+    for c in spec.choices:
+        typed = [_short(o.label) for o in d.params if o.used_when == (spec.name, c)]
+        out[f"{c} (type the {typed[0]})" if typed else c] = c
+    return out
+
+
+def _short(label: str) -> str:
+    """A label's abbreviation in closing brackets ("efficiency ... (ARE)" → "ARE"), else the label."""
+    if label.endswith(")") and "(" in label:
+        return label[label.rindex("(") + 1:-1]
+    return label
+
+
 def _cast(x, integer):
     if integer:
         return int(round(x)) if _is_number(x) else x
@@ -380,6 +396,15 @@ class ScenarioControls(pn.viewable.Viewer):
                                       margin=(8, 10))
             box.param.watch(lambda e, name=spec.name: st.set_value(name, bool(e.new)), "value")
             return box
+        if spec.kind == "choice":
+            value = st.value(spec.name)
+            select = pn.widgets.Select(**label_kw(spec.label), options=_choice_options(d, spec),
+                                       value=value if value in spec.choices else spec.default,
+                                       description=spec.doc or None, sizing_mode="stretch_width",
+                                       css_classes=[f"pl-choice-{spec.name}"], stylesheets=[WIDGET_CSS],
+                                       margin=(8, 10))
+            select.param.watch(lambda e, name=spec.name: e.new is not None and st.set_value(name, e.new), "value")
+            return select
         return NumberControl(spec.name, spec.label, param_unit(d, spec.name, st.unit_name), spec.soft, spec.step,
                              st.value(spec.name), lambda v, name=spec.name: st.set_value(name, v),
                              hard=(spec.low, spec.high), doc=spec.doc)
@@ -438,10 +463,18 @@ class ScenarioControls(pn.viewable.Viewer):
         eff = d.param(d.effect)
         self.effect.set_label(f"effect: {eff.label}", effect_unit(d, unit), eff.doc)
         for name, w in self.others.items():
+            spec = d.param(name)
+            if spec.used_when is not None:
+                used = st.value(spec.used_when[0]) == spec.used_when[1]
+                box = w._layout if isinstance(w, NumberControl) else w
+                if box.visible != used:
+                    box.visible = used
             if isinstance(w, NumberControl):
-                spec = d.param(name)
                 w.set_label(spec.label, param_unit(d, name, unit), spec.doc)
                 w.show(st.value(name))
+            elif spec.kind == "choice":
+                if st.value(name) in spec.choices and w.value != st.value(name):
+                    w.value = st.value(name)
             elif w.value != bool(st.value(name)):
                 w.value = bool(st.value(name))
         self.alpha.show(st.alpha)

@@ -6,7 +6,9 @@ import threading
 
 import panel as pn
 
+from .allocation_view import AllocationPanel
 from .controls import WATCHED, ScenarioControls
+from .effect_helper import EffectHelper
 from .figures import DensityFigure, EffectCurveFigure, NCurveFigure
 from .readout import Readout, Working
 from .share import SharePanel
@@ -36,6 +38,8 @@ class Explorer(pn.viewable.Viewer):
         self._pending = False
         self._need_figures = False
         self.controls = ScenarioControls(st, watch=False)
+        self.effect_helper = EffectHelper(st)
+        self.allocation = AllocationPanel(st)
         self.densities = DensityFigure()
         self.effect_curve = EffectCurveFigure()
         self.n_curve = NCurveFigure()
@@ -98,6 +102,8 @@ class Explorer(pn.viewable.Viewer):
         st = self.state
         with pn.io.hold():
             self.controls.refresh()
+            self.effect_helper.update()
+            self.allocation.update()
             snap = st.snapshot
             if figures and snap is not None:
                 for view in (self.densities, self.effect_curve, self.n_curve):
@@ -124,7 +130,8 @@ class Explorer(pn.viewable.Viewer):
         demo = pn.pane.HTML(f'<div class="pl-demo"><b>Invented demo.</b> {html.escape(DEMO["story"])}</div>',
                             stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(0, 10),
                             css_classes=["pl-demo-pane"])
-        sidebar = pn.Column(self.controls, width=400, margin=(0, 6), css_classes=["pl-sidebar"],
+        sidebar = pn.Column(self.controls, self.effect_helper, self.allocation,
+                            width=400, margin=(0, 6), css_classes=["pl-sidebar"],
                             styles={"background": "white", "border-right": "1px solid #DDDDDD"})
         draw_row = pn.Row(pn.pane.HTML('<p class="pl-label">Densities of:</p>', stylesheets=[PANE_CSS],
                                        margin=(10, 4, 0, 10)), self.scale, margin=0)

@@ -209,6 +209,8 @@ def apply_query(state: ExplorerState, query: Mapping[str, str]) -> dict[str, str
                     if text.lower() not in ("true", "false", "1", "0"):
                         raise ValueError(f"must be true or false, got {text!r}")
                     cand["params"][spec.name] = text.lower() in ("true", "1")
+                elif spec.kind == "choice":
+                    cand["params"][spec.name] = text   # the scenario refuses a name not offered
                 else:
                     cand["params"][spec.name] = _number(text, integer=spec.kind == "int")
             elif key.startswith(PARAM_PREFIX):

@@ -152,6 +152,9 @@ def caption(design: Design, result: Result, unit_name: str = "", date: str | Non
         if spec.kind == "bool":
             others.append(f"{spec.label}: {'yes' if v else 'no'}")
             continue
+        if spec.kind == "choice":
+            others.append(f"{spec.label}: {v}")
+            continue
         u = value_unit(param_unit(design, spec.name, unit_name))
         others.append(f"{spec.label} = {num(v, 4)}" + (f" {u}" if u else ""))
     n_text = f"n = {result.n} {design.n.unit}"
