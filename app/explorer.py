@@ -15,6 +15,7 @@ from .share import SharePanel
 from .simulation_view import SimulationPanel
 from .state import DEMO, ExplorerState
 from .text import SCALE_LABELS
+from . import speedups
 from .theme import PANE_CSS, WIDGET_CSS, button_look
 
 __all__ = ["CAUTIONS", "Explorer", "create_app"]
@@ -163,4 +164,7 @@ def session_query() -> dict[str, str]:
 
 def create_app() -> Explorer:
     """A fresh page with its own state, for one browser session (restoring a link's scenario)."""
-    return Explorer(query=session_query())
+    explorer = Explorer(query=session_query())
+    if pn.state.curdoc is not None:
+        speedups.install(pn.state.curdoc)
+    return explorer

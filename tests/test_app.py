@@ -323,3 +323,24 @@ def test_readout_rows_units():
     assert rows["critical-data"].count("min") == 2
     assert "min" in rows["detectable"] and "(d = 0.516)" in rows["detectable"]
     assert "t ≤ −1.98 or ≥ 1.98" == rows["critical-statistic"]
+
+
+def test_no_style_sheet_sets_a_bokeh_visual_variable():
+    """app/speedups.py skips BokehJS's --bk-* visual lookups: safe only while no CSS of the app sets one."""
+    import pathlib
+    from app.speedups import VISUAL_CSS_VARIABLES
+    for path in pathlib.Path(__file__).resolve().parents[1].joinpath("app").glob("*.py"):
+        if path.name == "speedups.py":
+            continue
+        text = path.read_text()
+        assert not [v for v in VISUAL_CSS_VARIABLES if v in text], path.name
+
+
+def test_speedup_is_attached_to_the_session_document():
+    """create_app attaches the lookup skip to the session's document as a document-ready callback."""
+    from bokeh.document import Document
+    from app import speedups
+    doc = Document()
+    speedups.install(doc)
+    callbacks = [cb for cbs in doc.callbacks._js_event_callbacks.values() for cb in cbs]
+    assert any(cb.code == speedups.SKIP_CSS_LOOKUP_JS for cb in callbacks)

@@ -44,6 +44,19 @@ def test_page_offline_demo_and_cautions(open_page):
     assert page.locator("table.pl-working").inner_text().count("SE = σ·√(1/n1 + 1/n2)") == 1
 
 
+def test_visual_css_lookup_is_skipped(open_page):
+    """app/speedups.py is installed on the page and Bokeh's per-paint CSS-variable lookup answers "" at once."""
+    page = open_page().page
+    page.wait_for_function("() => window.__powerlens_css_lookup_skipped === true", timeout=10000)
+    # a visual of the power-vs-n figure: its lookup no longer consults the style sheets
+    got = page.evaluate("""() => {
+      const view = Bokeh.index.find_one(Bokeh.documents[0].get_model_by_name('power-n'));
+      const vis = Object.values(view.visuals).find(v => v != null && typeof v._get_css_value === 'function');
+      return [vis.__powerlens_skip === true, vis._get_css_value('line-color')];
+    }""")
+    assert got == [True, ""]   # the figure's visuals use the replaced lookup, which answers ""
+
+
 def test_keyboard_drag_and_typing(open_page):
     """Arrow keys step the n slider; typing an exact effect moves its slider and Cohen's d."""
     from playwright.sync_api import expect
