@@ -79,6 +79,26 @@ def test_keyboard_drag_and_typing(open_page):
     expect_power(page, demo(n=65, params={"delta": 13.5}))
 
 
+def test_mouse_drag_ends_on_the_released_value(open_page):
+    """A fast mouse drag of the effect slider (each move sent at once): the views end on the released value."""
+    page = open_page().page
+    handle = page.locator(".pl-slider-effect .noUi-handle")
+    box = handle.bounding_box()
+    x, y = box["x"] + box["width"] / 2, box["y"] + box["height"] / 2
+    page.mouse.move(x, y)
+    page.mouse.down()
+    for i in range(1, 31):                     # 30 moves, 4 px apart, as fast as the browser sends them
+        page.mouse.move(x + 4 * i, y)
+    page.mouse.up()
+    page.wait_for_timeout(300)
+    value = float(handle.get_attribute("aria-valuenow"))
+    assert value > 20                           # the demo's effect is 20 min; the drag went right
+    expect_power(page, demo(params={"delta": value}))
+    res = pc.evaluate(demo(params={"delta": value}))
+    page.wait_for_function(f"() => Math.abs(Array.from(Bokeh.documents[0].get_model_by_name('effect-point')"
+                           f".data['power'])[0] - {res.power}) < 1e-9")
+
+
 def test_switch_design_and_find(open_page):
     """Another design gets its own controls; finding n shows the core's n read-only in its place."""
     from playwright.sync_api import expect
