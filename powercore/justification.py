@@ -8,10 +8,11 @@ and in total, the method, and the software with its version.
 """
 from __future__ import annotations
 
-from .design import get_design
+from .design import Design, get_design
 from .result import Result
 
-__all__ = ["CAUTIONS", "justification"]
+__all__ = ["BASES", "CAUTIONS", "DELTA2_NOTE", "OBSERVED_WARNING", "basis_sentence", "cautions_for",
+           "check_basis", "justification", "standardized_only"]
 
 CAUTIONS = (
     "A study plan that affects people, such as a clinical trial, needs a qualified statistician; "
@@ -21,6 +22,60 @@ CAUTIONS = (
     "Power rests on the assumed effect and spread; show how the sample size moves when they are wrong.",
 )
 
+#: where the assumed effect comes from: id → words used in the sentence and on the page
+BASES = {
+    "relevance": "the smallest difference that matters (clinical or practical relevance)",
+    "pilot": "a pilot study",
+    "published": "published studies",
+    "observed": "the observed result of this same study",
+}
+
+OBSERVED_WARNING = (
+    "Warning: the assumed effect is the effect observed in this same study. Power computed from it "
+    "('observed power') is a restatement of the p-value (Hoenig and Heisey 2001) and must not be used "
+    "to interpret a finished study.")
+
+DELTA2_NOTE = (
+    "The effect is given only as a standardized effect, with no difference in data units; report the "
+    "target difference in the outcome's own units too, as the DELTA2 guidance asks.")
+
+#: effect units that are themselves standardized (no data-unit difference exists for these designs)
+_STANDARDIZED_UNITS = ("proportion of variance", "standardized")
+
+
+def standardized_only(d: Design) -> bool:
+    """True when the design's effect parameter is itself a standardized effect (Cohen's w, f, f², R²...)."""
+    unit = d.param(d.effect).unit
+    return unit.startswith("Cohen's") or unit in _STANDARDIZED_UNITS
+
+
+def check_basis(basis: object, field: str = "basis") -> str | None:
+    """``basis`` if it is one of :data:`BASES` (or None); else RecordError naming ``field``."""
+    from .errors import RecordError
+    if basis is None or (isinstance(basis, str) and basis in BASES):
+        return basis
+    raise RecordError(field, f"must be one of {sorted(BASES)} or null, got {basis!r}")
+
+
+def basis_sentence(basis: str | None) -> str:
+    """The sentence saying where the assumed effect comes from ('' when not stated)."""
+    if basis is None:
+        return ""
+    if basis == "observed":
+        return OBSERVED_WARNING
+    return f"The assumed effect is based on {BASES[basis]}."
+
+
+def cautions_for(d: Design, basis: str | None = None) -> list[str]:
+    """The general cautions plus those this design and basis call for."""
+    out = list(CAUTIONS)
+    if basis == "observed":
+        out.append(OBSERVED_WARNING)
+    if standardized_only(d):
+        out.append(DELTA2_NOTE)
+    return out
+
+
 _SIDES = {"two-sided": "two-sided", "upper": "one-sided (upper alternative)",
           "lower": "one-sided (lower alternative)"}
 
@@ -29,8 +84,10 @@ def _g(x: float, digits: int = 4) -> str:
     return f"{x:.{digits}g}"
 
 
-def justification(result: Result, version: str) -> str:
-    """One paragraph, every number taken from ``result``."""
+def justification(result: Result, version: str, basis: str | None = None) -> str:
+    """One paragraph, every number taken from ``result``; ``basis`` (a key of BASES) says where the
+    assumed effect comes from."""
+    check_basis(basis)
     d = get_design(result.scenario.design)
     s = result.solved
     p = dict(s.params)
@@ -73,5 +130,7 @@ def justification(result: Result, version: str) -> str:
                 f"({result.enrolled_total} in total) so that {result.total} remain for analysis.")
     else:
         drop = "No allowance for dropout or loss to follow-up is included; enrol more to allow for it."
+    tail = " ".join(t for t in (basis_sentence(basis), DELTA2_NOTE if standardized_only(d) else "") if t)
     return (f"{opening} to detect {effect}, with a {_SIDES[s.direction]} {d.test} at {level}. {alloc} "
-            f"{drop} Method: {d.method}. Computed with Powerlens {version} (design '{d.id}').")
+            f"{drop} {tail + ' ' if tail else ''}Method: {d.method}. "
+            f"Computed with Powerlens {version} (design '{d.id}').")

@@ -11,6 +11,8 @@ import pathlib
 import sys
 
 from .design import designs
+from .justification import BASES
+from .record import MAX_NAME, MAX_PINNED
 from .scenario import DIRECTIONS, FINDS, SCHEMA_VERSION
 
 __all__ = ["RECORD_SCHEMA_PATH", "SCHEMA_PATH", "record_schema", "scenario_schema"]
@@ -80,6 +82,7 @@ def scenario_schema() -> dict:
 def record_schema() -> dict:
     """The assumptions record: the scenario plus what was computed from it and with what."""
     num = {"type": ["number", "null"]}
+    basis = {"enum": [*BASES, None], "description": "where the assumed effect comes from"}
     curve = {"type": "object", "required": ["x", "power"],
              "properties": {"x": {"type": "array", "items": num}, "power": {"type": "array", "items": num},
                             "x_label": {"type": "string"}}}
@@ -113,7 +116,20 @@ def record_schema() -> dict:
             "cautions": {"type": "array", "items": {"type": "string"}},
             "justification": {"type": "string"},
             "simulation": {"type": ["object", "null"]},
-            "extras": {"type": ["object", "null"], "description": "views' own state (pinned scenarios...)"},
+            "extras": {"type": ["object", "null"], "description": "views' own state (the unit name...)"},
+            "basis": basis,
+            "pinned": {"type": "array", "maxItems": MAX_PINNED,
+                       "description": "scenarios pinned beside the main one, to compare with it",
+                       "items": {"type": "object", "required": ["name", "assumptions"], "additionalProperties": False,
+                                 "properties": {
+                                     "name": {"type": "string", "minLength": 1, "maxLength": MAX_NAME},
+                                     "assumptions": {"$ref": f"powerlens:scenario/{SCHEMA_VERSION}"},
+                                     "results": {"type": "object", "properties": {
+                                         "power": num, "n": {"type": "integer"}, "total": {"type": "integer"},
+                                         "alpha": num, "effect": num, "standardized_effect": num}},
+                                     "justification": {"type": "string"},
+                                     "unit_name": {"type": "string", "maxLength": MAX_NAME},
+                                     "basis": basis}}},
         },
     }
 

@@ -160,3 +160,124 @@ def test_oversized_record_is_refused_before_parsing():
     with pytest.raises(pc.RecordError) as info:
         read_record(blob)
     assert info.value.field == "file"
+
+
+# ---- pinned scenarios and the basis of the assumed effect ----------------------------------------
+from powercore.record import MAX_PINNED, Pinned, read_basis, read_pinned  # noqa: E402
+
+BASE = pc.Scenario("two-means-t", {"delta": 20.0, "sd": 45.0}, n=60)
+
+
+def _pinned_record(**kw):
+    pins = [("A", BASE, "min"), (" B ", BASE.replace(n=90), "", "pilot"),
+            ("C", pc.Scenario("two-proportions", {"p1": 0.3, "delta": 0.1}, find="n", n=None))]
+    return json.loads(json.dumps(make_record(BASE, curves=False, pinned=pins, **kw)))
+
+
+def test_pinned_scenarios_round_trip_and_verify():
+    """Pinned entries carry name, assumptions, key results and justification, and read back as scenarios."""
+    rec = _pinned_record(basis="relevance")
+    _validate(rec)
+    assert read_record(rec) == BASE and read_basis(rec) == "relevance"
+    pins = read_pinned(rec)
+    assert [(p.name, p.scenario, p.unit_name, p.basis) for p in pins] == [
+        ("A", BASE, "min", None), ("B", BASE.replace(n=90), "", "pilot"),
+        ("C", pc.Scenario("two-proportions", {"p1": 0.3, "delta": 0.1}, find="n", n=None), "", None)]
+    entry = rec["pinned"][1]
+    fresh = pc.evaluate(BASE.replace(n=90))
+    assert entry["results"]["power"] == fresh.power and entry["results"]["total"] == 180
+    assert "180 subjects in both groups" in entry["justification"] and "pilot study" in entry["justification"]
+    assert verify_record(rec) == {}
+    rec["pinned"][2]["results"]["n"] = 3
+    assert set(verify_record(rec)) == {"pinned[2].results.n"}
+
+
+def test_record_without_pins_has_no_pinned_field():
+    """A record made without pins or basis has neither key (older readers see the same record)."""
+    rec = make_record(BASE, curves=False)
+    assert "pinned" not in rec and "basis" not in rec and read_pinned(rec) == []
+
+
+def _bad(mutate):
+    rec = _pinned_record()
+    mutate(rec)
+    return rec
+
+
+@pytest.mark.parametrize("mutate, field", [
+    (lambda r: r["pinned"][1]["assumptions"].__setitem__("alpha", 1.5), "pinned[1].assumptions.alpha"),
+    (lambda r: r["pinned"][2]["assumptions"]["params"].__setitem__("p1", -0.2), "pinned[2].assumptions.p1"),
+    (lambda r: r["pinned"][0]["assumptions"].__setitem__("design", "no-such"), "pinned[0].assumptions.design"),
+    (lambda r: r["pinned"][0].__setitem__("name", "   "), "pinned[0].name"),
+    (lambda r: r["pinned"][0].__setitem__("name", "x" * 41), "pinned[0].name"),
+    (lambda r: r["pinned"][1].__setitem__("name", "A"), "pinned[1].name"),
+    (lambda r: r["pinned"][1].__setitem__("name", 7), "pinned[1].name"),
+    (lambda r: r["pinned"][1].__setitem__("colour", "red"), "pinned[1].colour"),
+    (lambda r: r["pinned"][2].pop("assumptions"), "pinned[2].assumptions"),
+    (lambda r: r["pinned"][2].__setitem__("basis", "hunch"), "pinned[2].basis"),
+    (lambda r: r["pinned"][2].__setitem__("unit_name", ["min"]), "pinned[2].unit_name"),
+    (lambda r: r["pinned"].__setitem__(1, "B"), "pinned[1]"),
+    (lambda r: r.__setitem__("pinned", {"A": 1}), "pinned"),
+    (lambda r: r["pinned"].extend([r["pinned"][0]] * MAX_PINNED), "pinned[3].name"),
+])
+def test_bad_pinned_entries_name_their_field(mutate, field):
+    """Each bad pinned entry is refused by a RecordError naming it; the main scenario still reads."""
+    rec = _bad(mutate)
+    with pytest.raises(pc.RecordError) as info:
+        read_pinned(rec)
+    assert info.value.field == field
+    assert read_record(rec) == BASE
+    errors = []
+    good = read_pinned(rec, on_error=errors.append)
+    assert field in [e.field for e in errors]
+    assert len(good) + len(errors) >= min(3, len(rec["pinned"]) if isinstance(rec["pinned"], list) else 0)
+
+
+def test_more_than_six_pins_are_refused_past_the_sixth():
+    """Entries past MAX_PINNED are reported, the first six come back; make_record refuses a seventh."""
+    rec = _pinned_record()
+    rec["pinned"] = [{**rec["pinned"][0], "name": f"p{i}"} for i in range(MAX_PINNED + 1)]
+    errors = []
+    assert [p.name for p in read_pinned(rec, on_error=errors.append)] == [f"p{i}" for i in range(MAX_PINNED)]
+    assert [e.field for e in errors] == [f"pinned[{MAX_PINNED}]"]
+    with pytest.raises(pc.RecordError) as info:
+        make_record(BASE, curves=False, pinned=[(f"p{i}", BASE) for i in range(MAX_PINNED + 1)])
+    assert info.value.field == "pinned"
+    with pytest.raises(pc.RecordError) as info:
+        make_record(BASE, curves=False, pinned=[("A", BASE), ("A ", BASE)])
+    assert info.value.field == "pinned[1].name"
+
+
+def test_basis_goes_into_record_cautions_and_justification():
+    """The observed-result basis puts the observed-power warning into the cautions and the justification."""
+    rec = make_record(BASE, curves=False, basis="observed")
+    assert rec["basis"] == "observed"
+    assert any("Hoenig and Heisey 2001" in c and "finished study" in c for c in rec["cautions"])
+    assert "restatement of the p-value" in rec["justification"]
+    assert "pilot study" in make_record(BASE, curves=False, basis="pilot")["justification"]
+    with pytest.raises(pc.RecordError) as info:
+        make_record(BASE, curves=False, basis="hunch")
+    assert info.value.field == "basis"
+    bad = json.loads(json.dumps(rec))
+    bad["basis"] = "hunch"
+    with pytest.raises(pc.RecordError) as info:
+        read_record(bad)
+    assert info.value.field == "basis"
+
+
+@pytest.mark.parametrize("design, note", [("chisquare-gof", True), ("regression-r2", True),
+                                          ("two-means-t", False), ("two-proportions", False)])
+def test_delta2_note_for_designs_whose_effect_is_standardized(design, note):
+    """Designs whose effect is itself standardized get the DELTA2 note in cautions and justification."""
+    d = pc.get_design(design)
+    rec = make_record(pc.Scenario(design, n=d.n.default), curves=False)
+    assert ("DELTA2" in rec["justification"]) is note
+    assert any("DELTA2" in c for c in rec["cautions"]) is note
+
+
+def test_pinned_record_stays_under_the_size_limit_and_depth():
+    """Six pins with full names stay far below the size limit and within the nesting limit."""
+    pins = [("x" * 39 + str(i), BASE.replace(n=20 + i), "min", "published") for i in range(MAX_PINNED)]
+    text = json.dumps(make_record(BASE, pinned=pins))
+    assert len(text) < MAX_RECORD_BYTES / 4
+    assert len(read_pinned(text)) == MAX_PINNED
