@@ -6,23 +6,56 @@ websocket connections only from the same explicit origins (never ``*``),
 serves every script and style sheet itself (the page works offline), handles
 sessions in a thread pool, and stops cleanly on Ctrl-C or SIGTERM.
 
+Sharing on a network (``--address`` other than loopback) needs a password unless
+``--no-password`` is given explicitly. The password comes from the environment
+variable ``POWERLENS_PASSWORD``, a file (``--password-file``) or a prompt
+(``--ask-password``), never from a command-line value (which ``ps`` shows to every
+user of the machine). It is checked in constant time on a login page; a signed
+cookie (random secret per server start) then admits the page and its websocket.
+Without it neither a session nor a websocket is opened.
+
+``POWERLENS_DEBUG_STATS=1`` adds ``/debug/stats`` (JSON: live sessions, live
+``ExplorerState`` objects, simulation threads, resident memory), answered only to
+requests from this computer; off by default, for the load benchmark and tests.
+
 ``add_arguments`` and ``run`` are what the ``powerlens`` CLI calls;
 ``python -m app.server`` runs the same thing on its own.
 """
 from __future__ import annotations
 
 import argparse
+import asyncio
 import errno
+import gc
+import getpass
+import hashlib
+import hmac
+import html
 import ipaddress
+import json
+import os
+import secrets
 import signal
 import socket
 import sys
+import threading
 from typing import Iterable
 
-__all__ = ["DEFAULT_PORT", "add_arguments", "allowed_hosts", "main", "run"]
+__all__ = ["DEBUG_STATS_ENV", "DEFAULT_PORT", "MIN_PASSWORD", "PASSWORD_ENV", "PasswordError",
+           "add_arguments", "allowed_hosts", "main", "password_auth", "read_password", "run"]
 
 DEFAULT_PORT = 5150
 LOOPBACK = ("127.0.0.1", "localhost")
+PASSWORD_ENV = "POWERLENS_PASSWORD"
+DEBUG_STATS_ENV = "POWERLENS_DEBUG_STATS"
+MIN_PASSWORD = 8
+COOKIE = "powerlens_auth"
+# A closed tab's session is discarded once it has had no connection for UNUSED_LIFETIME_MS, checked
+# every CHECK_UNUSED_MS (Bokeh's defaults are 15 s and 17 s, so a session could outlive its tab by
+# half a minute). The lifetime also covers the gap between loading the page and its websocket
+# connecting, so it stays generous.
+CHECK_UNUSED_MS = 2_000
+UNUSED_LIFETIME_MS = 10_000
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -36,6 +69,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--allow-host", action="append", default=[], metavar="NAME",
                         help="another host name the browser may use to reach the server (repeatable), "
                              "e.g. this machine's network name when sharing")
+    parser.add_argument("--password-file", metavar="FILE",
+                        help=f"ask for the password in this file (its first line) before the page opens; "
+                             f"or set {PASSWORD_ENV}. Needed to share on a network")
+    parser.add_argument("--ask-password", action="store_true",
+                        help="type the password at a prompt when the server starts (not echoed)")
+    parser.add_argument("--no-password", action="store_true",
+                        help="share on a network without a password (only in a trusted room)")
     parser.add_argument("--threads", type=int, default=4,
                         help="worker threads shared by the sessions (default 4)")
     parser.add_argument("--show", action="store_true", help="open the page in the default browser")
@@ -72,6 +112,181 @@ def _free_port(address: str) -> int:
         return s.getsockname()[1]
 
 
+class PasswordError(ValueError):
+    """The password could not be read, or the options contradict each other."""
+
+
+def read_password(args: argparse.Namespace, environ=None, prompt=getpass.getpass) -> str | None:
+    """The password from exactly one of $POWERLENS_PASSWORD, --password-file, --ask-password; or None."""
+    environ = os.environ if environ is None else environ
+    env = environ.get(PASSWORD_ENV, "")
+    sources = [name for name, given in ((PASSWORD_ENV, bool(env)),
+                                        ("--password-file", bool(args.password_file)),
+                                        ("--ask-password", args.ask_password)) if given]
+    if args.no_password and sources:
+        raise PasswordError(f"--no-password contradicts {sources[0]}; give one or the other")
+    if len(sources) > 1:
+        raise PasswordError(f"give the password one way only, not by {' and '.join(sources)}")
+    if not sources:
+        return None
+    if env:
+        password = env
+    elif args.password_file:
+        try:
+            with open(args.password_file, encoding="utf-8") as f:
+                password = f.readline().rstrip("\r\n")
+        except OSError as e:
+            raise PasswordError(f"cannot read the password file {args.password_file}: {e.strerror or e}")
+        except UnicodeDecodeError:
+            raise PasswordError(f"the password file {args.password_file} is not UTF-8 text")
+    else:
+        password = prompt("Password for the shared page: ")
+    if len(password) < MIN_PASSWORD:
+        where = args.password_file or sources[0]
+        raise PasswordError(f"the password from {where} must have at least {MIN_PASSWORD} characters, "
+                            f"got {len(password)}")
+    return password
+
+
+LOGIN_PAGE = """<!DOCTYPE html>
+<html lang="en"><head><meta charset="utf-8"><title>Powerlens explorer: password</title>
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<style>body{{font-family:system-ui,sans-serif;background:#F4F4F4;margin:0}}
+main{{max-width:22rem;margin:12vh auto;background:white;border:1px solid #DDDDDD;padding:1.5rem 2rem}}
+h1{{font-size:1.3rem;margin:0 0 .5rem}} p{{color:#333}} label{{display:block;margin:1rem 0 .3rem}}
+input{{font-size:1rem;width:100%;box-sizing:border-box;padding:.4rem}}
+button{{margin-top:1rem;font-size:1rem;padding:.4rem 1rem}} .pl-login-error{{color:#A63A00;font-weight:600}}
+</style></head><body><main>
+<h1>Powerlens explorer</h1>
+<p>This page is shared on the room's network. Ask the presenter for the password.</p>
+{error}
+<form method="post" action="{action}" class="pl-login">
+<input type="hidden" name="next" value="{next}">
+<label for="pl-password">Password</label>
+<input id="pl-password" name="password" type="password" autocomplete="current-password" autofocus required>
+<button type="submit">Open the explorer</button>
+</form></main></body></html>
+"""
+
+
+def _local_path(value: str | None) -> str:
+    """``value`` if it is a path on this server (no scheme, no other host), else ``/``."""
+    if not value or not value.startswith("/") or value.startswith("//") or "\\" in value:
+        return "/"
+    return value
+
+
+def password_auth(password: str, login_url: str = "/login", logout_url: str = "/logout",
+                   failure_delay: float = 1.0):
+    """A Bokeh auth provider: one shared password, checked in constant time, then a signed cookie."""
+    from bokeh.server.auth_provider import AuthProvider
+    from tornado.web import RequestHandler
+
+    digest = hashlib.sha256(password.encode("utf-8")).digest()
+
+    def check(given: str) -> bool:
+        # compare fixed-length digests, so neither the content nor the length leaks through timing
+        return hmac.compare_digest(hashlib.sha256(given.encode("utf-8")).digest(), digest)
+
+    class Login(RequestHandler):
+        def _page(self, error: str = "") -> None:
+            nxt = _local_path(self.get_argument("next", "/"))
+            self.set_header("Content-Type", "text/html; charset=utf-8")
+            self.set_header("Cache-Control", "no-store")
+            self.set_header("X-Frame-Options", "DENY")
+            msg = f'<p class="pl-login-error" role="alert">{html.escape(error)}</p>' if error else ""
+            self.finish(LOGIN_PAGE.format(error=msg, action=html.escape(login_url),
+                                          next=html.escape(nxt, quote=True)))
+
+        def get(self) -> None:
+            self._page()
+
+        async def post(self) -> None:
+            if check(self.get_body_argument("password", "")):
+                self.set_signed_cookie(COOKIE, "ok", expires_days=None, httponly=True, samesite="Strict")
+                self.redirect(_local_path(self.get_body_argument("next", "/")))
+                return
+            print(f"powerlens serve: refused a wrong password from {self.request.remote_ip}",
+                  file=sys.stderr, flush=True)
+            await asyncio.sleep(failure_delay)   # slows guessing; the event loop stays free
+            self.set_status(401)
+            self._page("Wrong password. Try again.")
+
+    class Logout(RequestHandler):
+        def get(self) -> None:
+            self.clear_cookie(COOKIE)
+            self.redirect(login_url)
+
+    class PasswordAuth(AuthProvider):
+        @property
+        def get_user(self):
+            def user(handler):
+                value = handler.get_signed_cookie(COOKIE, max_age_days=1)
+                return "guest" if value == b"ok" else None
+            return user
+
+        @property
+        def login_url(self):
+            return login_url
+
+        @property
+        def login_handler(self):
+            return Login
+
+        @property
+        def logout_url(self):
+            return logout_url
+
+        @property
+        def logout_handler(self):
+            return Logout
+
+    return PasswordAuth()
+
+
+def _debug_stats_pattern():
+    """``/debug/stats``: counts for the load benchmark and tests, only to requests from this computer."""
+    from tornado.web import RequestHandler
+
+    class DebugStats(RequestHandler):
+        def get(self) -> None:
+            try:
+                local = ipaddress.ip_address(self.request.remote_ip).is_loopback
+            except ValueError:
+                local = False
+            if not local:
+                self.send_error(404)
+                return
+            from .explorer import Explorer
+            from .state import ExplorerState
+            gc.collect()
+            objs = gc.get_objects()
+            sessions = sum(len(list(ctx.sessions)) for ctx in self.application._applications.values())
+            stats = {"sessions": sessions,
+                     "explorer_states": sum(isinstance(o, ExplorerState) for o in objs),
+                     "explorers": sum(isinstance(o, Explorer) for o in objs),
+                     "simulation_threads": sum(t.name == "powerlens-simulation" for t in threading.enumerate()),
+                     "threads": threading.active_count(),
+                     "rss_kb": _rss_kb()}
+            del objs
+            self.set_header("Content-Type", "application/json")
+            self.set_header("Cache-Control", "no-store")
+            self.finish(json.dumps(stats))
+
+    return ("/debug/stats", DebugStats)
+
+
+def _rss_kb() -> int | None:
+    try:
+        with open("/proc/self/status", encoding="ascii") as f:
+            for line in f:
+                if line.startswith("VmRSS:"):
+                    return int(line.split()[1])
+    except OSError:
+        pass
+    return None
+
+
 def _host_guard(server, allowed: list[str]) -> None:
     """Refuse (403) any HTTP or websocket request whose Host header is not allowed."""
     from tornado.routing import Router
@@ -102,13 +317,56 @@ def _host_guard(server, allowed: list[str]) -> None:
     http.request_callback = HostGuard(app)
 
 
-def _make_server(port: int, address: str, allowed: list[str]):
+def _session_page():
+    """One browser session's page, with what Panel keeps after the session ends released at its end.
+
+    Panel 1.9 files every ``js_on_click``/``jscallback`` in ``panel.links.Callback.registry``, a
+    ``WeakKeyDictionary`` keyed by the widget, whose value (the Callback) holds the widget again as
+    its ``source``: the key never dies, and through the callback's ``args`` it keeps the whole page,
+    its ``ExplorerState`` and figures alive after the tab is closed (measured: one page leaked per
+    session, and every later page render walks the grown registry). When Bokeh destroys the
+    session, the page's entries are dropped: those filed while the page was built, and those of
+    every object on the page at that moment.
+    """
+    import weakref
+
     import panel as pn
+    from panel.links import Callback
 
     from .explorer import create_app
 
-    return pn.serve(create_app, port=port, address=address, websocket_origin=allowed, show=False,
-                    start=False, title="Powerlens explorer", location=False, verbose=False)
+    before = {id(k) for k in list(Callback.registry.keys())}
+    page = create_app()
+    filed = [weakref.ref(k) for k in list(Callback.registry.keys()) if id(k) not in before]
+    page_ref = weakref.ref(page)
+
+    def release(_session_context) -> None:
+        objs = [r() for r in filed]
+        live = page_ref()
+        if live is not None:
+            objs += live.__panel__().select()
+        for obj in objs:
+            if obj is not None:
+                Callback.registry.pop(obj, None)
+
+    pn.state.on_session_destroyed(release)
+    return page
+
+
+def _make_server(port: int, address: str, allowed: list[str], password: str | None = None,
+                 debug_stats: bool = False):
+    import panel as pn
+
+    extra = {}
+    if password is not None:
+        # a new random cookie secret and session-signing key at every start: a restart logs everyone out
+        extra = dict(auth_provider=password_auth(password), cookie_secret=secrets.token_urlsafe(32),
+                     secret_key=secrets.token_urlsafe(32), sign_sessions=True)
+    return pn.serve(_session_page, port=port, address=address, websocket_origin=allowed, show=False,
+                    start=False, title="Powerlens explorer", location=False, verbose=False,
+                    check_unused_sessions_milliseconds=CHECK_UNUSED_MS,
+                    unused_session_lifetime_milliseconds=UNUSED_LIFETIME_MS,
+                    extra_patterns=[_debug_stats_pattern()] if debug_stats else [], **extra)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -123,6 +381,19 @@ def run(args: argparse.Namespace) -> int:
     if args.threads < 1:
         print("powerlens serve: --threads must be at least 1", file=sys.stderr)
         return 2
+    shared = not _is_loopback(address)
+    try:
+        password = read_password(args)
+    except PasswordError as e:
+        print(f"powerlens serve: {e}", file=sys.stderr)
+        return 2
+    if shared and password is None and not args.no_password:
+        print(f"powerlens serve: sharing on {address} needs a password, so that only the people in the room "
+              f"can open the page. Set {PASSWORD_ENV}, or put it in a file and add --password-file FILE, "
+              f"or add --ask-password to type it; to share without one on a network you trust, add "
+              f"--no-password.", file=sys.stderr)
+        return 2
+    debug_stats = os.environ.get(DEBUG_STATS_ENV, "") == "1"
     pn.config.nthreads = args.threads
     pn.config.raw_css = [*pn.config.raw_css, CSS]
     explicit = args.port is not None
@@ -133,7 +404,7 @@ def run(args: argparse.Namespace) -> int:
             port = _free_port(address)
         allowed = allowed_hosts(address, port, args.allow_host)
         try:
-            server = _make_server(port, address, allowed)
+            server = _make_server(port, address, allowed, password, debug_stats)
             break
         except OSError as e:
             if e.errno == errno.EADDRINUSE and not (explicit and args.port != 0):
@@ -158,10 +429,23 @@ def run(args: argparse.Namespace) -> int:
     shown = args.allow_host[0] if wildcard and args.allow_host else address
     host = f"[{shown}]" if ":" in shown else shown
     url = f"http://{host}:{port}/"
-    if not _is_loopback(address):
-        print("WARNING: the explorer is reachable from other computers on this network. Use this only in "
-              "a trusted room; for anything wider, put it behind a password and TLS.", file=sys.stderr)
-        print(f"It answers only to these host names: {', '.join(allowed)} (add others with --allow-host).",
+    if shared:
+        if password is None:
+            print("WARNING: no password: ANYONE who can reach this computer on the network can open the "
+                  "explorer. Use this only on a network you trust.", file=sys.stderr)
+        print(f"Sharing on this network at {address} port {port}; it answers only to the host names "
+              f"{', '.join(allowed)} (add others with --allow-host).", file=sys.stderr)
+        who = "Anyone on the network with the password" if password is not None else "Anyone on the network"
+        print(f"{who} can open the page. Each person gets a session of their own: what they change "
+              f"(assumptions, design, imported records, simulations) changes only their own view, never "
+              f"yours or anyone else's.", file=sys.stderr)
+        print("The connection is not encrypted: the password and the page travel in clear on this network.",
+              file=sys.stderr)
+        print(f"To stop sharing: press Ctrl-C here (or end process {os.getpid()}).", file=sys.stderr)
+    elif password is not None:
+        print("A password is asked before the page opens.", file=sys.stderr)
+    if debug_stats:
+        print(f"{DEBUG_STATS_ENV}=1: counts at {url}debug/stats (answered to this computer only).",
               file=sys.stderr)
     print(f"Powerlens explorer: {url}  (press Ctrl-C to stop)", flush=True)
 

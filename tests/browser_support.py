@@ -59,9 +59,9 @@ class ServerProcess:
         return int(urllib.parse.urlparse(self.url).port)
 
 
-def start_server(*extra: str, timeout: float = 30.0) -> ServerProcess:
-    """Start ``python3 -m app.server --port 0`` and wait for the address it prints."""
-    env = {**os.environ, "PYTHONUNBUFFERED": "1"}
+def start_server(*extra: str, timeout: float = 30.0, env: dict | None = None) -> ServerProcess:
+    """Start ``python3 -m app.server --port 0`` and wait for the address it prints (``env``: extra variables)."""
+    env = {**os.environ, "PYTHONUNBUFFERED": "1", **(env or {})}
     started = time.perf_counter()
     proc = subprocess.Popen([sys.executable, "-m", "app.server", "--port", "0", *extra], cwd=ROOT, env=env,
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
