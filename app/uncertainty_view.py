@@ -57,16 +57,19 @@ CONFIDENCE = 0.8
 
 Band = tuple[np.ndarray, np.ndarray, np.ndarray, str]
 
+CARD_CSS = ":host { font-size: 17px; } .card-title { font-size: 18px; font-weight: 700; }"
 UNC_CSS = PANE_CSS + """
+table.pl-readout th { white-space: normal; }
 table.pl-sens { border-collapse: collapse; font-size: 16px; margin: 4px 0; }
 table.pl-sens th, table.pl-sens td { border: 1px solid #CCCCCC; padding: 4px 10px; text-align: right;
   font-variant-numeric: tabular-nums; }
 table.pl-sens thead th { background: #F0F0F0; }
 table.pl-sens tbody th { background: #F7F7F7; font-weight: 600; }
-table.pl-sens td.pl-current, table.pl-sens th.pl-current { background: #FFE9B8; font-weight: 700;
-  outline: 3px solid #E69F00; outline-offset: -3px; }
+table.pl-sens th.pl-current { background: #FFF1CF; }
+table.pl-sens td.pl-current { background: #FFE9B8; font-weight: 700; outline: 3px solid #E69F00;
+  outline-offset: -3px; }
 table.pl-sens td.pl-none { color: #6E6E6E; cursor: help; }
-.pl-formula { font-family: 'DejaVu Sans Mono', monospace; }
+.pl-formula { font-style: italic; white-space: nowrap; }
 .pl-src { color: #3F3F3F; font-size: 14px; }
 """
 
@@ -94,7 +97,7 @@ def _e(text: Any) -> str:
 class _Field(pn.viewable.Viewer):
     """A labelled number box with its message line (the message sits at the field)."""
 
-    def __init__(self, key: str, label: str, integer: bool = False, width: int = 170, step: float = 0.1) -> None:
+    def __init__(self, key: str, label: str, integer: bool = False, width: int = 230, step: float = 0.1) -> None:
         super().__init__()
         cls = pn.widgets.IntInput if integer else pn.widgets.FloatInput
         kw = {} if integer else {"format": "0[.][000000]"}
@@ -152,19 +155,20 @@ class UncertaintyPanel(pn.viewable.Viewer):
         self.band: tuple | None = None       # (effect PowerBand, n PowerBand)
         self.timing_ms: float = 0.0
         look = button_look()
+        solid = {k: v for k, v in look.items() if k in ("color", "button_type")}
 
         # ---- assurance ----
-        self.prior_mean = _Field("prior-mean", "prior mean of the effect")
-        self.prior_sd = _Field("prior-sd", "prior SD of the effect")
+        self.prior_mean = _Field("prior-mean", "prior mean of the effect", width=270)
+        self.prior_sd = _Field("prior-sd", "prior SD of the effect", width=270)
         self.use_current = pn.widgets.Button(label="use the current effect", **look, css_classes=["pl-unc-reset"],
                                              stylesheets=[WIDGET_CSS], margin=(30, 10, 0, 10), width=210)
         self.use_current.on_click(lambda e: self._reset_prior())
-        self.assurance_pane = pn.pane.HTML("", stylesheets=[UNC_CSS], sizing_mode="stretch_width",
+        self.assurance_pane = pn.pane.HTML("", stylesheets=[UNC_CSS], width=560,
                                            css_classes=["pl-unc-assurance"], margin=(4, 10))
         self._build_histogram()
 
         # ---- uncertain spread ----
-        self.sd_name = pn.widgets.Select(**label_kw("SD parameter"), options=[], width=170, visible=False,
+        self.sd_name = pn.widgets.Select(**label_kw("SD parameter"), options=[], width=200, visible=False,
                                          css_classes=["pl-unc-sd-name"], stylesheets=[WIDGET_CSS],
                                          margin=(4, 10, 0, 10))
         self.pilot_sd = _Field("pilot-sd", "pilot SD")
@@ -186,7 +190,7 @@ class UncertaintyPanel(pn.viewable.Viewer):
         self.table_pane = pn.pane.HTML("", stylesheets=[UNC_CSS], sizing_mode="stretch_width",
                                        css_classes=["pl-unc-table"], margin=(4, 10))
         self.download = pn.widgets.FileDownload(callback=self._csv_file, filename="powerlens-sensitivity.csv",
-                                                label="Download CSV", **look, css_classes=["pl-unc-csv"],
+                                                label="Download CSV", **solid, css_classes=["pl-unc-csv"],
                                                 stylesheets=[WIDGET_CSS], margin=(4, 10), width=200)
 
         for f in (self.prior_mean, self.prior_sd, self.pilot_sd, self.pilot_df, self.confidence,
@@ -214,8 +218,7 @@ class UncertaintyPanel(pn.viewable.Viewer):
                             css_classes=["pl-unc-tabs"], stylesheets=[WIDGET_CSS])
         self.stale = pn.pane.HTML("", stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(0, 10),
                                   css_classes=["pl-unc-stale"])
-        self.recompute = pn.widgets.Button(label="Update these numbers", **{k: v for k, v in look.items()
-                                                                              if k in ("color", "button_type")},
+        self.recompute = pn.widgets.Button(label="Update these numbers", **solid,
                                            css_classes=["pl-unc-recompute"], stylesheets=[WIDGET_CSS],
                                            margin=(4, 10), width=240)
         self.recompute.on_click(lambda e: self._input_changed())
@@ -223,7 +226,7 @@ class UncertaintyPanel(pn.viewable.Viewer):
         self.card = pn.Card(pn.pane.HTML(intro, stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(0, 10)),
                             self._stale_row, self.tabs, title="What if the assumptions are wrong?", collapsed=collapsed,
                             sizing_mode="stretch_width", margin=(6, 10), css_classes=["pl-unc"],
-                            header_css_classes=["pl-unc-header"])
+                            header_css_classes=["pl-unc-header"], stylesheets=[CARD_CSS])
         self.card.param.watch(lambda e: self._opened() if not e.new else None, "collapsed")
 
     def __panel__(self):
@@ -245,9 +248,9 @@ class UncertaintyPanel(pn.viewable.Viewer):
                         fill_color=PALETTE["alt"], fill_alpha=0.55, line_color="white", name="unc-hist-bars")
         self.hist_target = Span(location=0.8, dimension="height", line_color=PALETTE["target"], line_width=2.5,
                                 line_dash="dashed")
-        self.hist_assurance = Span(location=0.5, dimension="height", line_color=PALETTE["reject"], line_width=3)
+        self.hist_assurance = Span(location=0.5, dimension="height", line_color=PALETTE["power"], line_width=3.5)
         self.hist_label = Label(x=0.5, y=0, y_units="screen", y_offset=6, x_offset=4, text="assurance",
-                                text_font=FONT, text_font_size="12pt", text_color="#A34400", text_font_style="bold",
+                                text_font=FONT, text_font_size="12pt", text_color="#7A5200", text_font_style="bold",
                                 background_fill_color="white", background_fill_alpha=0.85)
         self.hist_target_label = Label(x=0.8, y=0, y_units="screen", y_offset=6, x_offset=-4, text="target",
                                        text_align="right", text_font=FONT, text_font_size="12pt",
@@ -451,13 +454,18 @@ class UncertaintyPanel(pn.viewable.Viewer):
              num(a.prob_power_above_target, 3), ""),
             ("power-spread", "power under the prior: 5%, median, 95%",
              f"{num(q['5%'], 3)}, {num(q['50%'], 3)}, {num(q['95%'], 3)}", ""),
-            ("prior", "prior on the effect", f"normal, mean {num(a.prior_mean, 4)}{u}, SD {num(a.prior_sd, 4)}{u}", ""),
-            ("at-n", "at", f"n = {res.n} {d.n.unit}{n_note}, α = {num(res.alpha, 3)}, {sc.direction}", ""),
-            ("method", "method", a.method, ""),
         ]
         body = "".join(f'<tr><th>{_e(lab)}</th><td data-key="{k}" class="{c}">{_e(v)}</td></tr>'
                        for k, lab, v, c in rows)
-        return (f'<table class="pl-readout" aria-label="assurance">{body}</table>'
+        facts = [("prior", "Prior on the effect", f"normal, mean {num(a.prior_mean, 4)}{u}, SD {num(a.prior_sd, 4)}{u}"),
+                 ("at-n", "At", f"n = {res.n} {d.n.unit}{n_note}, α = {num(res.alpha, 3)}, {sc.direction}"),
+                 ("method", "Method", a.method)]
+        lines = "".join(f'<p class="pl-note" style="margin:2px 0">{_e(lab)}: <span data-key="{k}">{_e(v)}</span></p>'
+                        for k, lab, v in facts)
+        if "prior-sd" not in self._typed:
+            lines += ('<p class="pl-note" style="margin:2px 0" data-key="prior-hint">The prior SD starts at half '
+                      'the assumed effect: type how unsure you are.</p>')
+        return (f'<table class="pl-readout" aria-label="assurance">{body}</table>{lines}'
                 '<p class="pl-src">Assurance: the power averaged over the prior on the effect '
                 '(O’Hagan, Stevens &amp; Campbell 2005). The histogram shows power at 2,000 equally likely '
                 'values of the prior (power computed at 201 effects across them and interpolated); the chance '
@@ -555,12 +563,12 @@ class UncertaintyPanel(pn.viewable.Viewer):
         band = ""
         if self.band is not None:
             b = self.band[0]
-            band = (f'<p class="pl-note" data-key="band">Band: power with {_e(out["name"])} from {num(b.sd_low, 4)} '
+            band = (f'<p class="pl-note" data-key="band">Band: power with {_e(d.param(out["name"]).label)} from {num(b.sd_low, 4)} '
                     f'to {num(b.sd_high, 4)}{_e(u)}'
                     + (" — drawn on both power curves." if self.band_show.value else
                        " — tick the box to draw it on both power curves.") + "</p>")
         return (f'<table class="pl-readout" aria-label="uncertain spread">{body}</table>'
-                f'<p class="pl-src"><span class="pl-formula">σ_U = s·√(ν / χ²<sub>ν, 1−γ</sub>)</span> with the '
+                f'<p class="pl-src"><span class="pl-formula">σ<sub>U</sub> = s·√(ν / χ²<sub>ν, 1−γ</sub>)</span> with the '
                 f'pilot SD s, its ν = {out["df"]} degrees of freedom and confidence γ = {_e(num(out["conf"], 4))}: '
                 'the one-sided upper limit from the chi-square distribution of ν s²/σ² for normal data. '
                 'Planning with this limit instead of the pilot SD itself follows Browne (1995, Statistics in '
@@ -587,7 +595,7 @@ class UncertaintyPanel(pn.viewable.Viewer):
             self.band = None
         if self.band is not None and self.band_show.value and name:
             eb, nb = self.band
-            label = f"power for {name} {num(eb.sd_low, 3)} to {num(eb.sd_high, 3)}"
+            label = f"power for {snap.design.param(name).label} {num(eb.sd_low, 3)} to {num(eb.sd_high, 3)}"
             self._on_band((eb.x, eb.lower, eb.upper, label), (nb.x, nb.lower, nb.upper, label))
             self._band_shown = True
         elif self._band_shown:
