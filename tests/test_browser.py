@@ -47,7 +47,8 @@ def test_page_offline_demo_and_cautions(open_page):
 def test_visual_css_lookup_is_skipped(open_page):
     """app/speedups.py is installed on the page and Bokeh's per-paint CSS-variable lookup answers "" at once."""
     page = open_page().page
-    page.wait_for_function("() => window.__powerlens_css_lookup_skipped === true", timeout=10000)
+    page.wait_for_function("() => window.__powerlens_css_lookup_skipped === true"
+                           " && window.__powerlens_same_css_kept === true", timeout=10000)
     # a visual of the power-vs-n figure: its lookup no longer consults the style sheets
     got = page.evaluate("""() => {
       const view = Bokeh.index.find_one(Bokeh.documents[0].get_model_by_name('power-n'));
@@ -55,6 +56,22 @@ def test_visual_css_lookup_is_skipped(open_page):
       return [vis.__powerlens_skip === true, vis._get_css_value('line-color')];
     }""")
     assert got == [True, ""]   # the figure's visuals use the replaced lookup, which answers ""
+    # an unchanged style sheet is not rewritten; a changed one still is
+    kept = page.evaluate("""() => {
+      const view = Bokeh.index.find_one(Bokeh.documents[0].get_model_by_name('power-n'));
+      const sheet = view._css_vars, el = sheet.el, before = el.textContent;
+      let writes = 0;
+      const obs = new MutationObserver(m => { writes += m.length; });
+      obs.observe(el, {childList: true, characterData: true, subtree: true});
+      sheet.replace(before);
+      const same = obs.takeRecords().length;
+      sheet.replace(before + ' ');
+      const changed = obs.takeRecords().length;
+      sheet.replace(before);
+      obs.disconnect();
+      return [same, changed > 0, el.textContent === before];
+    }""")
+    assert kept == [0, True, True]
 
 
 def test_keyboard_drag_and_typing(open_page):
