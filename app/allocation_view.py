@@ -21,7 +21,7 @@ import panel as pn
 from powercore import InvalidParameter, NoSolution
 from powercore.allocation import Allocation, BudgetPlan, best_ratio, budget_plan
 
-from .effect_helper import primary_button
+from .effect_helper import STALE, card_heading, primary_button
 from .state import ExplorerState
 from .text import effect_unit, num, value_unit
 from .theme import PANE_CSS, WIDGET_CSS, label_kw
@@ -75,6 +75,13 @@ def _lines(rows) -> str:
     return "".join(f'<p class="pl-alloc-line" style="margin:2px 0">{html.escape(t)}</p>' for t in rows)
 
 
+def _mark_stale(pane) -> None:
+    """Keep the last good read-out, marked as such (the message is under the box at fault)."""
+    mark = f'<p class="pl-stale">{html.escape(STALE)}</p>'
+    if pane.object and not pane.object.startswith(mark):
+        pane.object = mark + pane.object
+
+
 class AllocationPanel(pn.viewable.Viewer):
     """The allocation and budget card of one session; the page calls ``update()`` after each change."""
 
@@ -105,7 +112,8 @@ class AllocationPanel(pn.viewable.Viewer):
                                 stylesheets=[PANE_CSS], margin=(10, 10, 0, 10))
         self.card = pn.Card(self.cost1.layout, self.cost2.layout, heading, self.ratio_out, self.use_ratio,
                             heading2, self.budget.layout, self.plan_out, self.use_sizes,
-                            title="Allocation and budget", collapsed=True, sizing_mode="stretch_width",
+                            header=pn.pane.HTML(card_heading("Allocation and budget"), stylesheets=[PANE_CSS],
+                                                margin=(2, 4)), collapsed=True, sizing_mode="stretch_width",
                             margin=(8, 10), css_classes=["pl-allocation"], stylesheets=[PANE_CSS])
         self.card.param.watch(lambda e: self.update(), "collapsed")
         self.update()
@@ -197,11 +205,11 @@ class AllocationPanel(pn.viewable.Viewer):
             box.set_message(str(e))
         self.plan = None
         self.use_sizes.disabled = True
-        self.plan_out.object = ""
+        _mark_stale(self.plan_out)
         if both:
             self.best = None
             self.use_ratio.disabled = True
-            self.ratio_out.object = ""
+            _mark_stale(self.ratio_out)
 
     # ---- using the results ---------------------------------------------------------------------
     def apply_ratio(self) -> bool:

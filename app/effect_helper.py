@@ -27,10 +27,20 @@ from powercore import Design, InvalidParameter, effects
 from powercore.standard import PerProportion, PerRmsSD, PerSD
 
 from .state import ExplorerState
-from .text import num
+from .text import effect_unit, num, value_unit
 from .theme import PANE_CSS, WIDGET_CSS, label_kw
 
-__all__ = ["EffectHelper", "HelperInputError", "converter_for", "primary_button"]
+__all__ = ["EffectHelper", "HelperInputError", "card_heading", "converter_for", "primary_button"]
+
+
+#: shown above the last good read-out while a box holds a value that cannot be used
+STALE = "Last good values (fix the box marked ⚠ to update):"
+
+
+def card_heading(title: str, sub: str = "") -> str:
+    """The header of a collapsible card in the sidebar: a label-sized title and an optional second line."""
+    line = f'<br><span class="pl-unit" style="font-size:15px">{html.escape(sub)}</span>' if sub else ""
+    return f'<p class="pl-label" style="margin:0; text-align:left">{html.escape(title)}{line}</p>'
 
 
 def primary_button() -> dict:
@@ -179,8 +189,9 @@ class MeansToD(Converter):
         sd = _positive("sd", v["sd"], self.boxes[2].label)
         s = float(effects.cohens_d(m1, m2, sd))
         sym = self.d.standardized_name
+        unit = value_unit(effect_unit(self.d, self.state.unit_name)) or "data units"
         lines = (f"{sym} = ({num(m2, 6)} − {num(m1, 6)})/{num(sd, 6)} = {num(s, 4)}",
-                 f"difference = {num(m2 - m1, 6)} data units")
+                 f"difference = {num(m2 - m1, 6)} {unit}")
         if self.spread is None:
             return Conversion(lines, standardized=s)
         values = {self.d.effect: m2 - m1, self.spread: sd}
@@ -445,6 +456,7 @@ class EffectHelper(pn.viewable.Viewer):
         self.converter: Converter | None = None
         self.fields: dict[str, _Field] = {}
         self._conversion: Conversion | None = None
+        self._last_good: tuple[str, ...] = ()
         self.note = pn.pane.HTML("", stylesheets=[PANE_CSS], margin=(4, 10), css_classes=["pl-helper-note"])
         self.readout = pn.pane.HTML("", stylesheets=[PANE_CSS], margin=(4, 10), sizing_mode="stretch_width",
                                     css_classes=["pl-helper-readout"])
@@ -454,8 +466,10 @@ class EffectHelper(pn.viewable.Viewer):
         self.message = pn.pane.HTML("", visible=False, stylesheets=[PANE_CSS], margin=(0, 10, 4, 10),
                                     css_classes=["pl-msg-helper-use"])
         self._boxes = pn.Column(sizing_mode="stretch_width", margin=0)
+        self.heading = pn.pane.HTML(card_heading("Work out the effect"), stylesheets=[PANE_CSS], margin=(2, 4),
+                                    css_classes=["pl-helper-title"])
         self.card = pn.Card(self.note, self._boxes, self.readout, self.use, self.message,
-                            title="Work out the effect", collapsed=True, sizing_mode="stretch_width",
+                            header=self.heading, collapsed=True, sizing_mode="stretch_width",
                             margin=(8, 10), css_classes=["pl-effect-helper"], stylesheets=[PANE_CSS])
         self.update()
 
@@ -472,8 +486,9 @@ class EffectHelper(pn.viewable.Viewer):
             self._boxes.objects = []
             self.card.visible = False
             return
-        self.card.title = f"Work out the effect: {self.converter.title}"
+        self.heading.object = card_heading("Work out the effect", self.converter.title)
         self.note.object = f'<p class="pl-note">{html.escape(self.converter.note)}</p>'
+        self._last_good = ()
         self.fields = {b.key: _Field(b, self._recompute) for b in self.converter.boxes}
         self._boxes.objects = [f.layout for f in self.fields.values()]
         self.card.visible = True
@@ -496,12 +511,17 @@ class EffectHelper(pn.viewable.Viewer):
         for f in self.fields.values():
             f.set_message(None)
         lines: list[str] = []
+        stale = ""
         try:
             self._conversion = conv.convert(self.values())
             lines += self._conversion.lines
+            self._last_good = self._conversion.lines
         except (HelperInputError, ValueError) as e:
             self._conversion = None
             self._show_error(e)
+            if self._last_good:
+                stale = f'<p class="pl-stale">{html.escape(STALE)}</p>'
+                lines += self._last_good
         s = self.state.standardized()
         if s is not None:
             try:
@@ -510,7 +530,7 @@ class EffectHelper(pn.viewable.Viewer):
                 pass   # the message is already under the box
         self.use.disabled = self._conversion is None
         rows = "".join(f"<p class=\"pl-helper-line\" style=\"margin:2px 0\">{html.escape(t)}</p>" for t in lines)
-        self.readout.object = f'<div class="pl-helper-out">{rows}</div>'
+        self.readout.object = f'<div class="pl-helper-out">{stale}{rows}</div>'
 
     def _show_error(self, e: Exception) -> None:
         key = getattr(e, "field", None)

@@ -359,3 +359,19 @@ def test_allocation_bad_input_messages_at_the_field(box, value, words):
     assert shown.visible and words in html.unescape(shown.object), shown.object
     assert panel.use_sizes.disabled and panel.apply_sizes() is False
     assert (dict(st.values), st.n) == before
+
+
+def test_last_good_readouts_stay_marked_while_a_box_is_bad():
+    """A bad box keeps the last good conversion and budget plan on view, marked as the last good values."""
+    ex = explorer()
+    h = ex.effect_helper
+    type_into(h, mean1=100.0, mean2=108.0, sd=16.0)
+    type_into(h, sd=0.0)
+    assert "Last good values" in h.readout.object and "= 0.5" in h.readout.object
+    panel = open_allocation(ex)
+    panel.budget.input.value = 400.0
+    shown = panel.plan_out.object
+    panel.budget.input.value = -1.0
+    assert "Last good values" in panel.plan_out.object and shown in panel.plan_out.object
+    panel.budget.input.value = 400.0
+    assert "Last good values" not in panel.plan_out.object
