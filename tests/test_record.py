@@ -23,6 +23,8 @@ def scenarios(draw):
     for spec in d.params:
         if spec.kind == "bool":
             params[spec.name] = draw(st.booleans())
+        elif spec.kind == "choice":
+            params[spec.name] = draw(st.sampled_from(spec.choices))
         else:
             params[spec.name] = draw(st.floats(*spec.soft, allow_nan=False))
     find = draw(st.sampled_from(["power", "n", "effect", "alpha"]))
