@@ -58,6 +58,17 @@ CHECK_UNUSED_MS = 2_000
 UNUSED_LIFETIME_MS = 10_000
 
 
+class _RefuseInline(argparse.Action):
+    """``--password VALUE`` is refused: every user of the machine could read it with ``ps``.
+
+    Declared (hidden) so that argparse does not take ``--password`` as short for ``--password-file``.
+    """
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        parser.error(f"the password is never given on the command line (others see it with ps); set "
+                     f"{PASSWORD_ENV}, or use --password-file FILE or --ask-password")
+
+
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Options of ``powerlens serve``."""
     parser.add_argument("--port", type=int, default=None,
@@ -69,6 +80,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--allow-host", action="append", default=[], metavar="NAME",
                         help="another host name the browser may use to reach the server (repeatable), "
                              "e.g. this machine's network name when sharing")
+    parser.add_argument("--password", nargs="?", action=_RefuseInline, help=argparse.SUPPRESS)
     parser.add_argument("--password-file", metavar="FILE",
                         help=f"ask for the password in this file (its first line) before the page opens; "
                              f"or set {PASSWORD_ENV}. Needed to share on a network")
@@ -202,7 +214,7 @@ def password_auth(password: str, login_url: str = "/login", logout_url: str = "/
             self._page()
 
         async def post(self) -> None:
-            if check(self.get_body_argument("password", "")):
+            if check(self.get_body_argument("password", "", strip=False)):   # tornado strips by default
                 self.set_signed_cookie(COOKIE, "ok", expires_days=None, httponly=True, samesite="Strict")
                 self.redirect(_local_path(self.get_body_argument("next", "/")))
                 return

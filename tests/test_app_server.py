@@ -1,4 +1,4 @@
-"""`powerlens serve` without a browser: address, Host allow-list, websocket origin, port clash, Ctrl-C."""
+"""`powerlens serve`: address, Host allow-list, websocket origin, port clash, Ctrl-C, the sharing password."""
 from __future__ import annotations
 
 import argparse
@@ -9,7 +9,7 @@ import socket
 import pytest
 
 from app.server import DEFAULT_PORT, add_arguments, allowed_hosts
-from browser_support import start_server, stop_server
+from browser_support import needs_browser, start_server, stop_server
 
 
 @pytest.fixture(scope="module")
@@ -94,3 +94,181 @@ def test_taken_port_is_reported_plainly():
 def test_default_port_constant():
     """The default port is a fixed, documented number (a free one is picked if it is taken)."""
     assert DEFAULT_PORT == 5150
+
+
+# ---- password for sharing ------------------------------------------------------------------------
+
+PASSWORD = "meeting-room-7"   # common practice, no source: a made-up password of 14 characters
+
+
+def parse(argv):
+    parser = argparse.ArgumentParser()
+    add_arguments(parser)
+    return parser.parse_args(argv)
+
+
+def test_password_sources(tmp_path):
+    """The password comes from exactly one of the variable, a file or a prompt; never from argv."""
+    from app.server import PASSWORD_ENV, read_password
+    pw_file = tmp_path / "pw"
+    pw_file.write_text(PASSWORD + "\nsecond line is ignored\n", encoding="utf-8")
+    assert read_password(parse([]), environ={}) is None
+    assert read_password(parse([]), environ={PASSWORD_ENV: PASSWORD}) == PASSWORD
+    assert read_password(parse(["--password-file", str(pw_file)]), environ={}) == PASSWORD
+    assert read_password(parse(["--ask-password"]), environ={}, prompt=lambda _: PASSWORD) == PASSWORD
+    for argv in (["--password", PASSWORD], ["--passw", PASSWORD]):   # never a value on the command line
+        with pytest.raises(SystemExit):
+            parse(argv)
+
+
+@pytest.mark.parametrize("argv, environ, message", [
+    (["--no-password"], {"POWERLENS_PASSWORD": PASSWORD}, "--no-password contradicts POWERLENS_PASSWORD"),
+    (["--password-file", "PW", "--ask-password"], {}, "one way only"),
+    (["--password-file", "PW"], {"POWERLENS_PASSWORD": PASSWORD}, "one way only"),
+    (["--password-file", "MISSING"], {}, "cannot read the password file"),
+    ([], {"POWERLENS_PASSWORD": "short"}, "at least 8 characters, got 5"),
+])
+def test_password_mistakes_are_named(tmp_path, argv, environ, message):
+    """Contradicting sources, an unreadable file and a short password each get a plain message."""
+    from app.server import PasswordError, read_password
+    (tmp_path / "PW").write_text(PASSWORD, encoding="utf-8")
+    argv = [str(tmp_path / a) if a in ("PW", "MISSING") else a for a in argv]
+    with pytest.raises(PasswordError, match=message):
+        read_password(parse(argv), environ=environ)
+
+
+def test_network_sharing_without_password_is_refused():
+    """--address off loopback with no password stops before listening, saying how to give one."""
+    import subprocess
+    import sys
+    env = {k: v for k, v in os.environ.items() if k != "POWERLENS_PASSWORD"}
+    proc = subprocess.run([sys.executable, "-m", "app.server", "--address", "192.0.2.10", "--port", "0"],
+                          capture_output=True, text=True, timeout=60, env=env,
+                          cwd=os.path.dirname(os.path.dirname(__file__)))
+    assert proc.returncode == 2
+    assert "needs a password" in proc.stderr and "--password-file" in proc.stderr
+    assert "--no-password" in proc.stderr and "Traceback" not in proc.stderr
+
+
+def request(port, method="GET", path="/", body=None, cookie=None, headers=None):
+    conn = http.client.HTTPConnection("127.0.0.1", port, timeout=20)
+    hdrs = {"Host": f"127.0.0.1:{port}", **(headers or {})}
+    if cookie:
+        hdrs["Cookie"] = cookie
+    if body is not None:
+        hdrs["Content-Type"] = "application/x-www-form-urlencoded"
+    conn.request(method, path, body=body, headers=hdrs)
+    resp = conn.getresponse()
+    data = resp.read()
+    conn.close()
+    return resp, data
+
+
+def stats(port) -> dict:
+    import json
+    resp, data = request(port, path="/debug/stats")
+    assert resp.status == 200, resp.status
+    return json.loads(data)
+
+
+def login(port, password, next_path="/"):
+    import urllib.parse
+    body = urllib.parse.urlencode({"password": password, "next": next_path})
+    return request(port, "POST", "/login", body=body)
+
+
+@pytest.fixture(scope="module")
+def guarded(tmp_path_factory):
+    pw_file = tmp_path_factory.mktemp("pw") / "password"
+    pw_file.write_text(PASSWORD + "\n", encoding="utf-8")
+    srv = start_server("--password-file", str(pw_file), env={"POWERLENS_DEBUG_STATS": "1"})
+    yield srv
+    code, out, err = stop_server(srv.proc)
+    assert code == 0 and "stopped" in out, (code, out, err[-2000:])
+    assert "Traceback" not in err, err[-3000:]
+    assert "refused a wrong password from 127.0.0.1" in err
+
+
+def test_password_server_refuses_without_credentials(guarded):
+    """Without the cookie the page redirects to the login form and no session is made."""
+    before = stats(guarded.port)["sessions"]
+    resp, _ = request(guarded.port, path="/?n=30")
+    assert resp.status == 302 and resp.getheader("Location").startswith("./login?next=")
+    resp, body = request(guarded.port, path="/login")
+    assert resp.status == 200 and b'type="password"' in body and b"https://" not in body
+    resp, _ = request(guarded.port, cookie="powerlens_auth=ok")   # a forged, unsigned cookie
+    assert resp.status == 302
+    assert stats(guarded.port)["sessions"] == before
+
+
+def test_wrong_password_refused(guarded):
+    """A wrong password gets 401 and the form again, no cookie, no session."""
+    before = stats(guarded.port)["sessions"]
+    for wrong in ("", "meeting-room-8", PASSWORD + " ", PASSWORD[:-1]):
+        resp, body = login(guarded.port, wrong)
+        assert resp.status == 401 and b"Wrong password" in body, wrong
+        assert not any("powerlens_auth=" in v for v in resp.headers.get_all("Set-Cookie") or [])
+    assert stats(guarded.port)["sessions"] == before
+
+
+def websocket_handshake(port, cookie=None, token=None):
+    headers = {"Upgrade": "websocket", "Connection": "Upgrade", "Sec-WebSocket-Version": "13",
+               "Sec-WebSocket-Key": "dGhlIHNhbXBsZSBub25jZQ==", "Origin": f"http://127.0.0.1:{port}"}
+    if token:
+        headers["Sec-WebSocket-Protocol"] = f"bokeh, {token}"
+    conn = http.client.HTTPConnection("127.0.0.1", port, timeout=20)
+    conn.request("GET", "/ws", headers={"Host": f"127.0.0.1:{port}", **headers,
+                                        **({"Cookie": cookie} if cookie else {})})
+    resp = conn.getresponse()
+    status = resp.status
+    conn.close()
+    return status
+
+
+def test_right_password_serves_page_and_websocket(guarded):
+    """The right password sets a signed HttpOnly cookie; with it the page and its websocket open."""
+    import re
+    resp, _ = login(guarded.port, PASSWORD, next_path="/?n=30")
+    assert resp.status == 302 and resp.getheader("Location") == "/?n=30"
+    set_cookie = next(v for v in resp.headers.get_all("Set-Cookie") if v.startswith("powerlens_auth="))
+    assert "HttpOnly" in set_cookie and "SameSite=Strict" in set_cookie
+    cookie = set_cookie.split(";")[0]
+    resp, body = request(guarded.port, cookie=cookie)
+    assert resp.status == 200 and b"Powerlens explorer" in body
+    token = re.search(rb'"token":"([^"]+)"', body).group(1).decode()
+    assert websocket_handshake(guarded.port, token=token) == 403            # the session token alone is not enough
+    assert websocket_handshake(guarded.port, cookie=cookie, token=token) == 101
+    resp, _ = login(guarded.port, PASSWORD, next_path="https://elsewhere.example/")
+    assert resp.getheader("Location") == "/"                                 # never sends you off this server
+
+
+def test_loopback_without_password_unchanged(served):
+    """Without a password the page opens directly, as before; no login page, no debug counts."""
+    status, body = get(served.port)
+    assert status == 200 and b"Powerlens explorer" in body
+    assert get(served.port, "/login")[0] == 404
+    assert get(served.port, "/debug/stats")[0] == 404
+
+
+@needs_browser
+@pytest.mark.browser
+def test_login_in_chromium(guarded):
+    """In Chromium: a wrong password shows the message at the form; the right one opens the explorer."""
+    from playwright.sync_api import sync_playwright
+    from browser_support import CHROMIUM, CHROMIUM_ARGS, GuardedPage, POWER, wait_ready
+    with sync_playwright() as p:
+        b = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+        gp = GuardedPage(b, guarded.url)
+        page = gp.page
+        page.goto(guarded.url)
+        page.fill("#pl-password", "not the password")
+        page.click("button[type=submit]")
+        assert "Wrong password" in page.locator(".pl-login-error").inner_text()
+        page.fill("#pl-password", PASSWORD)
+        page.click("button[type=submit]")
+        wait_ready(page)
+        assert page.locator(POWER).inner_text().strip() != ""
+        gp.close()
+        b.close()
+    assert gp.external == []
+    assert [e for e in gp.errors if "401" not in e] == []   # the refused login is the only error logged
