@@ -543,7 +543,10 @@ class EffectHelper(pn.viewable.Viewer):
 
     # ---- using the effect ----------------------------------------------------------------------
     def apply(self) -> bool:
-        """Put the typed values into the scenario; False (state untouched) when they cannot be used."""
+        """Put the typed values into the scenario; False (state untouched) when they cannot be used.
+
+        When the page was finding the smallest detectable effect, it finds power at the new effect.
+        """
         self._recompute()
         conv, c = self.converter, self._conversion
         self._set_message(None)
@@ -551,6 +554,7 @@ class EffectHelper(pn.viewable.Viewer):
             return False
         st, d = self.state, conv.d
         if c.standardized is not None:
+            self._stop_finding_effect()
             st.set_standardized(c.standardized)
             return True
         new = {**{s.name: st.value(s.name) for s in d.params}, **c.values}
@@ -566,8 +570,14 @@ class EffectHelper(pn.viewable.Viewer):
             else:
                 self._set_message(msg)
             return False
+        self._stop_finding_effect()
         st.values = {**st.values, **c.values}
         return True
+
+    def _stop_finding_effect(self) -> None:
+        """An effect put in by hand is an input: when the page was finding the effect, it now finds power."""
+        if self.state.find == "effect":
+            self.state.find = "power"
 
 
 def _checked_others(d: Design, p: dict) -> dict:

@@ -375,3 +375,15 @@ def test_last_good_readouts_stay_marked_while_a_box_is_bad():
     assert "Last good values" in panel.plan_out.object and shown in panel.plan_out.object
     panel.budget.input.value = 400.0
     assert "Last good values" not in panel.plan_out.object
+
+
+def test_use_while_finding_the_effect_switches_to_power():
+    """An effect typed into the helper is an input: the page then finds power at it."""
+    ex = explorer()
+    st = ex.state
+    st.find = "effect"
+    ex.refresh()
+    type_into(ex.effect_helper, mean1=0.0, mean2=25.0, sd=45.0)
+    press(ex.effect_helper.use)
+    assert st.find == "power" and st.values["delta"] == 25.0
+    assert st.snapshot.result.power == pytest.approx(expected_power(st), rel=1e-12)
