@@ -147,7 +147,8 @@ class UncertaintyPanel(pn.viewable.Viewer):
         self._dirty = True
         self._band_shown = False
         self._tabs_ms: float | None = None   # time of the last computation of the tabs
-        self._tabs_for = None                # the scenario they were computed for
+        self._tabs_for = None                # (scenario, unit name) they were computed for
+        self._seen = None                    # the snapshot of the last update
         # last good results, per tab
         self.assurance = None
         self.spread: dict | None = None
@@ -285,7 +286,7 @@ class UncertaintyPanel(pn.viewable.Viewer):
         snap = self.state.snapshot
         if snap is not None:
             self._follow(snap)
-            if self._dirty or self._tabs_for != snap.scenario:
+            if self._dirty or self._tabs_for != (snap.scenario, snap.unit_name):
                 self._compute(snap, tabs=True)
 
     def _reset_prior(self) -> None:
@@ -352,11 +353,12 @@ class UncertaintyPanel(pn.viewable.Viewer):
     def update(self) -> None:
         """Follow the scenario behind the views (call after each change)."""
         snap = self.state.snapshot
-        if snap is None:
-            return
+        if snap is None or (snap is self._seen and (self.card.collapsed or not self._dirty)):
+            return   # nothing new (a refresh for a message elsewhere on the page)
+        self._seen = snap
         self._follow(snap)
         slow = (self._tabs_ms is not None and self._tabs_ms > SLOW_MS and self._tabs_for is not None
-                and self._tabs_for.design == snap.scenario.design and self._tabs_for != snap.scenario)
+                and self._tabs_for[0].design == snap.scenario.design)
         self._compute(snap, tabs=not self.card.collapsed and not slow)
 
     def _compute(self, snap: Snapshot, tabs: bool) -> None:
@@ -371,11 +373,14 @@ class UncertaintyPanel(pn.viewable.Viewer):
                 self._table(snap)
                 self._dirty = False
                 self._tabs_ms = 1000 * (time.perf_counter() - t1)
-                self._tabs_for = snap.scenario
+                self._tabs_for = (snap.scenario, snap.unit_name)
+                self._stale_row.visible = False
+            elif self._tabs_for == (snap.scenario, snap.unit_name):   # back to the scenario shown
+                self._dirty = False
                 self._stale_row.visible = False
             else:
                 self._dirty = True
-                if self._tabs_for is not None and self._tabs_for != snap.scenario and not self.card.collapsed:
+                if self._tabs_for is not None and not self.card.collapsed:
                     self.stale.object = (f'<p class="pl-stale" role="status">The numbers below are for an earlier '
                                          f'scenario: they took {self._tabs_ms:,.0f} ms for this design, so they are '
                                          'worked out on request.</p>')
