@@ -43,6 +43,9 @@ DEMO = MappingProxyType({
 })
 
 
+#: parameters that mean the same thing under another name, for carrying values between designs
+SYNONYMS = MappingProxyType({"sd1": ("sd",), "sd2": ("sd",), "sd": ("sd1", "sd2")})
+
 #: no dropout, one test, no correction
 DEFAULT_ADJUSTMENTS = MappingProxyType({"dropout": 0.0, "comparisons": 1, "multiplicity": "none"})
 
@@ -175,18 +178,33 @@ class ExplorerState(param.Parameterized):
         return out
 
     def _reset_for(self, d: Design, keep: bool, old: Design | None = None) -> None:
-        """Give a newly chosen design its defaults, keeping values that mean the same thing."""
-        values = {}
+        """Give a newly chosen design its defaults, keeping values that mean the same thing.
+
+        Within a family a value is kept under its own name or a synonym (a common SD stands for
+        both groups' SDs and back). The effect and the spreads in data units go together: when a
+        spread cannot be carried over (a paired design's SD of the differences is not the SD of one
+        group), they all take the new design's defaults, so that δ = 20 min is never set against a
+        default SD made for another scale.
+        """
+        values, carried = {}, set()
+        same_family = keep and old is not None and old.family == d.family
         for spec in d.params:
             v = spec.default
-            if keep and old is not None and old.family == d.family:
-                try:
-                    same = old.param(spec.name)
-                    if same.unit == spec.unit and spec.name in self.values:
-                        v = spec.check(self.values[spec.name])
-                except (KeyError, InvalidParameter):
-                    v = spec.default
+            if same_family:
+                for name in (spec.name, *SYNONYMS.get(spec.name, ())):
+                    try:
+                        if old.param(name).unit == spec.unit and name in self.values:
+                            v = spec.check(self.values[name])
+                            carried.add(spec.name)
+                            break
+                    except (KeyError, InvalidParameter):
+                        continue
             values[spec.name] = v
+        data_units = {spec.name for spec in d.params if spec.unit == "data units"}
+        spreads = {name for name in data_units if name.startswith("sd")}   # a null mean may take its default
+        if (spreads | ({d.effect} & data_units)) - carried:
+            for name in data_units:
+                values[name] = d.param(name).default
         self.values = values
         if not (keep and old is not None and old.n.unit == d.n.unit and _whole(self.n)
                 and self.n >= d.min_n(values)):

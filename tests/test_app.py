@@ -344,3 +344,18 @@ def test_speedup_is_attached_to_the_session_document():
     speedups.install(doc)
     callbacks = [cb for cbs in doc.callbacks._js_event_callbacks.values() for cb in cbs]
     assert any(cb.code == speedups.SKIP_CSS_LOOKUP_JS for cb in callbacks)
+
+
+def test_switching_design_carries_effect_and_spread_together():
+    """Within a family the effect and SD carry over (a common SD becomes both groups' SDs); when a
+    spread cannot (a paired SD of differences), effect and spreads all take the new defaults."""
+    import powercore as pc
+    from app.state import DEMO, ExplorerState
+    st = ExplorerState()
+    st.design = "two-means-welch"
+    assert st.values["delta"] == DEMO["params"]["delta"] and st.values["sd1"] == st.values["sd2"] == DEMO["params"]["sd"]
+    st.design = "mean-z"     # one group: its null mean takes its default, effect and SD stay
+    assert (st.values["delta"], st.values["sd"]) == (DEMO["params"]["delta"], DEMO["params"]["sd"])
+    st.design = "paired-t"
+    d = pc.get_design("paired-t")
+    assert st.values["delta"] == d.param("delta").default and st.values["sd_diff"] == d.param("sd_diff").default
