@@ -10,6 +10,8 @@ from .allocation_view import AllocationPanel
 from .controls import WATCHED, ScenarioControls
 from .effect_helper import EffectHelper
 from .figures import DensityFigure, EffectCurveFigure, NCurveFigure
+from .justification_view import BasisField, JustificationCard
+from .pins import PinBoard
 from .readout import Readout, Working
 from .share import SharePanel
 from .simulation_view import SimulationPanel
@@ -47,7 +49,11 @@ class Explorer(pn.viewable.Viewer):
         self.readout = Readout(st)
         self.working = Working(st)
         self.sim = SimulationPanel(st, on_result=self._simulated)
-        self.share = SharePanel(st, simulation=lambda: self.simulation)
+        self.basis = BasisField(st)
+        self.pins = PinBoard(st, self.effect_curve, self.n_curve, basis=lambda: self.basis.value,
+                             set_basis=lambda b: setattr(self.basis, "value", b))
+        self.justification = JustificationCard(st, pins=self.pins, basis=self.basis)
+        self.share = SharePanel(st, simulation=lambda: self.simulation, pins=self.pins, basis=self.basis)
         self.scale = pn.widgets.RadioButtonGroup(
             options={v: k for k, v in SCALE_LABELS.items()}, value=st.scale,
             **button_look(), css_classes=["pl-scale"],
@@ -112,6 +118,9 @@ class Explorer(pn.viewable.Viewer):
                 self.working.update()
                 self.n_curve.set_simulated(self.sim.points_for(snap.result.solved))
             self.readout.update()
+            self.basis.update()
+            self.pins.update()
+            self.justification.update()
             self.sim.refresh()
             self.share.update()
             if self.scale.value != st.scale:
@@ -131,13 +140,14 @@ class Explorer(pn.viewable.Viewer):
         demo = pn.pane.HTML(f'<div class="pl-demo"><b>Invented demo.</b> {html.escape(DEMO["story"])}</div>',
                             stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(0, 10),
                             css_classes=["pl-demo-pane"])
-        sidebar = pn.Column(self.controls, self.effect_helper, self.allocation,
+        sidebar = pn.Column(self.controls, self.basis, self.effect_helper, self.allocation,
                             width=400, margin=(0, 6), css_classes=["pl-sidebar"],
                             styles={"background": "white", "border-right": "1px solid #DDDDDD"})
         draw_row = pn.Row(pn.pane.HTML('<p class="pl-label">Densities of:</p>', stylesheets=[PANE_CSS],
                                        margin=(10, 4, 0, 10)), self.scale, margin=0)
         main = pn.Column(
             self.readout,
+            self.pins,
             self.sim,
             self.share,
             draw_row,
@@ -145,6 +155,7 @@ class Explorer(pn.viewable.Viewer):
             pn.Row(self.effect_curve, self.n_curve, sizing_mode="stretch_width", margin=0,
                    styles={"flex-wrap": "wrap"}),
             self.working,
+            self.justification,
             sizing_mode="stretch_width", margin=0, css_classes=["pl-main"])
         return pn.Column(header, cautions, demo,
                          pn.Row(sidebar, main, sizing_mode="stretch_width", margin=0),

@@ -1,7 +1,10 @@
 """The three linked views, each a Bokeh figure built once per session.
 
 Updates replace ``ColumnDataSource.data`` (numpy arrays) and move annotations
-in place; no figure is ever rebuilt and no pane swapped. Each figure carries
+in place; no figure is ever rebuilt and no pane swapped. The two power curves also hold a fixed
+pool of ``MAX_PINS`` overlay lines for pinned scenarios (``set_pins``) and one translucent band
+(``set_band``, for an uncertainty panel), all made once and hidden until used; their legend
+above the frame names each pin and shows only while something is overlaid. Each figure carries
 its own caption (design, direction, α, effect, spread, n, power, date, version) as one Bokeh
 ``Title`` inside the figure, so an exported PNG or SVG keeps it.
 """
@@ -12,16 +15,18 @@ import math
 import numpy as np
 import panel as pn
 from bokeh.models import (ColumnDataSource, HoverTool, Label, Legend, LegendItem, Range1d, Span, Title, Whisker)
+from bokeh.core.properties import value
 from bokeh.plotting import figure
 
 from .state import Snapshot
 from .text import caption, effect_unit, effect_value, estimate_unit, num, with_unit
-from .theme import CAPTION_PT, FONT, INK, PALETTE, style_figure
+from .theme import BAND, CAPTION_PT, FONT, INK, PALETTE, PIN_STYLES, style_figure
 
-__all__ = ["DensityFigure", "EffectCurveFigure", "NCurveFigure"]
+__all__ = ["MAX_PINS", "DensityFigure", "EffectCurveFigure", "NCurveFigure"]
 
 HEIGHT = 540
 EMPTY = np.zeros(0)
+MAX_PINS = len(PIN_STYLES)
 
 
 def _base_figure(name: str, title: str, height: int = HEIGHT):
@@ -70,6 +75,112 @@ def _legend(fig, items) -> Legend:
                     background_fill_alpha=0.0, border_line_color=None, margin=2, padding=2)
     fig.add_layout(legend, "above")
     return legend
+
+
+def _text(label) -> str:
+    """A legend label as text (Bokeh may hold it as a ``value()`` spec)."""
+    return str(getattr(label, "value", label))
+
+
+class _Overlays:
+    """Pinned curves and one band on a power figure: renderers made once, data set in place."""
+
+    def _make_overlays(self, fig, main_line, x: str) -> None:
+        self._x = x
+        self.src_band = ColumnDataSource({x: EMPTY, "lo": EMPTY, "hi": EMPTY}, name=f"{fig.name}-band")
+        self.band = fig.varea(x, "lo", "hi", source=self.src_band, fill_color=BAND, fill_alpha=0.25,
+                              visible=False, level="underlay", name=f"{fig.name}-band-area")
+        self.src_pins = [ColumnDataSource({x: EMPTY, "power": EMPTY}, name=f"{fig.name}-pin-{i}")
+                         for i in range(MAX_PINS)]
+        self.pin_lines = [fig.line(x, "power", source=src, line_color=colour, line_dash=dash, line_width=3,
+                                   visible=False, name=f"{fig.name}-pin-line-{i}")
+                          for i, (src, (colour, dash)) in enumerate(zip(self.src_pins, PIN_STYLES))]
+        self._pin_keys: list = [None] * MAX_PINS
+        # each pin's own operating point, in its colour (one renderer for all of them)
+        self.src_pin_points = ColumnDataSource({x: EMPTY, "power": EMPTY, "colour": np.zeros(0, dtype=object)},
+                                               name=f"{fig.name}-pin-points")
+        self.pin_points = fig.scatter(x, "power", source=self.src_pin_points, marker="square", size=12,
+                                      fill_color="colour", line_color="white", line_width=1.5,
+                                      name=f"{fig.name}-pin-points")
+        self._point_key = None
+        self.overlay_legend = Legend(
+            items=[LegendItem(label="current scenario", renderers=[main_line]),
+                   LegendItem(label="band", renderers=[self.band], visible=False),
+                   *[LegendItem(label=f"pin {i + 1}", renderers=[r], visible=False)
+                     for i, r in enumerate(self.pin_lines)]],
+            orientation="horizontal", ncols=3, location="top_left", label_text_font_size="12.5pt",
+            label_text_font=FONT, label_text_color=INK, glyph_width=34, spacing=12, label_standoff=6,
+            background_fill_alpha=0.0, border_line_color=None, margin=2, padding=2, visible=False,
+            name=f"{fig.name}-legend")
+        fig.add_layout(self.overlay_legend, "above")
+
+    def _legend_visible(self) -> None:
+        show = any(item.visible for item in self.overlay_legend.items[1:])
+        if self.overlay_legend.visible != show:
+            self.overlay_legend.visible = show
+
+    def set_pins(self, curves) -> None:
+        """Overlay pinned curves: ``{slot: (name, x, power[, (x0, power0)])}``, slot 0..MAX_PINS−1 fixing
+        colour and dash; the optional ``(x0, power0)`` is the pin's own point, marked in its colour.
+
+        Slots left out are hidden; a slot whose name and arrays are the ones already shown is not sent again.
+        """
+        points = sorted((slot, e[3]) for slot, e in curves.items() if len(e) > 3 and e[3] is not None)
+        key = tuple((slot, float(a), float(b)) for slot, (a, b) in points)
+        if key != self._point_key:
+            self.src_pin_points.data = {self._x: np.array([k[1] for k in key]),
+                                        "power": np.array([k[2] for k in key]),
+                                        "colour": np.array([PIN_STYLES[k[0]][0] for k in key], dtype=object)}
+            self._point_key = key
+        for slot in range(MAX_PINS):
+            item = self.overlay_legend.items[2 + slot]
+            entry = curves.get(slot)
+            if entry is None:
+                if self.pin_lines[slot].visible:
+                    self.pin_lines[slot].visible = False
+                    item.visible = False
+                    self._pin_keys[slot] = None
+                continue
+            name, xs, ys = entry[:3]
+            key = (name, id(xs), id(ys))
+            if self._pin_keys[slot] != key:
+                self.src_pins[slot].data = {self._x: np.asarray(xs, dtype=float), "power": np.asarray(ys, dtype=float)}
+                if _text(item.label) != name:
+                    item.label = value(name)   # a plain string would be read as a column name
+                self._pin_keys[slot] = key
+            if not self.pin_lines[slot].visible:
+                self.pin_lines[slot].visible = True
+                item.visible = True
+        self._legend_visible()
+
+    def pin_names(self) -> list[str]:
+        """The legend names of the pinned curves shown, in slot order."""
+        return [_text(item.label) for item in self.overlay_legend.items[2:] if item.visible]
+
+    def legend_labels(self) -> list[str]:
+        """Every entry the overlay legend shows (empty while it is hidden)."""
+        if not self.overlay_legend.visible:
+            return []
+        return [_text(item.label) for item in self.overlay_legend.items if item.visible]
+
+    def _set_band(self, x, lo, hi, label: str) -> None:
+        item = self.overlay_legend.items[1]
+        if x is None:
+            if self.band.visible:
+                self.band.visible = False
+                item.visible = False
+                self.src_band.data = {self._x: EMPTY, "lo": EMPTY, "hi": EMPTY}
+            self._legend_visible()
+            return
+        xs, a, b = (np.asarray(v, dtype=float).ravel() for v in (x, lo, hi))
+        if not (xs.shape == a.shape == b.shape):
+            raise ValueError(f"band arrays must have one length, got {xs.size}, {a.size} and {b.size}")
+        self.src_band.data = {self._x: xs, "lo": a, "hi": b}
+        if _text(item.label) != label:
+            item.label = value(label)
+        self.band.visible = True
+        item.visible = True
+        self._legend_visible()
 
 
 class _FigureView(pn.viewable.Viewer):
@@ -243,8 +354,8 @@ class DensityFigure(_FigureView):
         _set_range(self.fig.y_range, 0.0, top * 1.08, floor=0.0)
 
 
-class EffectCurveFigure(_FigureView):
-    """Power against the effect at the current n and α."""
+class EffectCurveFigure(_Overlays, _FigureView):
+    """Power against the effect at the current n and α (with pinned curves and a band, when set)."""
 
     def __init__(self) -> None:
         super().__init__()
@@ -277,8 +388,13 @@ class EffectCurveFigure(_FigureView):
             ("effect", "@x{0.0000}"), ("standardized", "@std{0.000}"), ("power", "@power{0.0000}")]))
         fig.add_tools(HoverTool(renderers=[point], tooltips=[
             ("current effect", "@x{0.0000}"), ("power", "@power{0.0000}")]))
+        self._make_overlays(fig, line, "x")
         fig.yaxis.axis_label = "power"
         self._finish()
+
+    def set_band(self, x, lo=None, hi=None, label: str = "") -> None:
+        """Shade power between ``lo`` and ``hi`` at each effect ``x`` (legend ``label``); ``set_band(None)`` clears."""
+        self._set_band(x, lo, hi, label)
 
     def update(self, snap: Snapshot) -> None:
         d, res, cur = snap.design, snap.result, snap.effect_curve
@@ -311,8 +427,8 @@ class EffectCurveFigure(_FigureView):
         _set_captions(self.captions, snap)
 
 
-class NCurveFigure(_FigureView):
-    """Power against the sample size at the current effect and α."""
+class NCurveFigure(_Overlays, _FigureView):
+    """Power against the sample size at the current effect and α (with pinned curves and a band, when set)."""
 
     def __init__(self) -> None:
         super().__init__()
@@ -356,8 +472,13 @@ class NCurveFigure(_FigureView):
                                   label_text_color=INK, background_fill_alpha=0.85, border_line_color=None,
                                   visible=False)
         fig.add_layout(self._sim_legend)
+        self._make_overlays(fig, line, "n")
         fig.yaxis.axis_label = "power"
         self._finish()
+
+    def set_band(self, n, lo=None, hi=None, label: str = "") -> None:
+        """Shade power between ``lo`` and ``hi`` at each sample size ``n`` (legend ``label``); ``set_band(None)`` clears."""
+        self._set_band(n, lo, hi, label)
 
     def set_simulated(self, points) -> None:
         """Show simulated (n, power, low, high) points; none hides them."""

@@ -4,9 +4,11 @@
   the Bokeh views (a small JS callback: find the view, raise ``devicePixelRatio`` for the export,
   call the view's ``export``, download the blob). The board is the three views composited as they
   sit on screen, on white. The captions are inside the figures, so the pictures keep them.
-* "Download record" gives the assumptions record (JSON) of the scenario behind the views.
+* "Download record" gives the assumptions record (JSON) of the scenario behind the views, with the
+  basis of its assumed effect and the pinned scenarios.
 * "Import record…" opens a file picker in the browser; a file over ``MAX_RECORD_BYTES`` is refused
-  there, before it is read or sent; a smaller one is read on the server by ``read_record``.
+  there, before it is read or sent; a smaller one is read on the server by ``read_record``. Its
+  pinned scenarios replace the page's; a bad one is named in the message and the rest still come back.
 * "Copy link" writes every scenario field into the page address and copies it to the clipboard.
 """
 from __future__ import annotations
@@ -145,10 +147,14 @@ window.powerlensLink = url;
 class SharePanel(pn.viewable.Viewer):
     """The export, record and link controls of one session."""
 
-    def __init__(self, state: ExplorerState, simulation: Callable[[], Any] | None = None) -> None:
+    def __init__(self, state: ExplorerState, simulation: Callable[[], Any] | None = None,
+                 pins: Any = None, basis: Any = None) -> None:
+        """``pins``: the page's PinBoard (``entries()``, ``restore()``); ``basis``: its BasisField (``value``)."""
         super().__init__()
         self.state = state
         self._simulation = simulation or (lambda: None)
+        self._pins = pins
+        self._basis = basis
         look = button_look()
         solid = {k: v for k, v in look.items() if k in ("color", "button_type")}
         self.which = pn.widgets.RadioButtonGroup(options=list(VIEW_LABELS.values()), value=VIEW_LABELS["densities"],
@@ -209,7 +215,9 @@ class SharePanel(pn.viewable.Viewer):
     # ---- record out and in -----------------------------------------------------------------
     def record_text(self) -> str:
         sim = self._simulation()
-        return sharing.record_json(self.state, sim)
+        pins = self._pins.entries() if self._pins is not None else ()
+        basis = self._basis.value if self._basis is not None else None
+        return sharing.record_json(self.state, sim, pins, basis)
 
     def _record_file(self):
         return io.BytesIO(self.record_text().encode("utf-8"))
@@ -248,10 +256,23 @@ class SharePanel(pn.viewable.Viewer):
             if not ok and message.startswith(f"{field}: "):
                 message = message[len(field) + 2:]
         if ok:
-            self.show_message(f"Loaded {name}.", error=False)
+            problems = self._restore_pins(text)
+            if problems:
+                self.show_message(f"Loaded {name}; these pinned scenarios were not restored:", problems)
+            else:
+                self.show_message(f"Loaded {name}.", error=False)
         else:
             self.show_message(f"{name} was not loaded; the view is unchanged.", {field: message})
         return ok
+
+    def _restore_pins(self, text: str) -> dict[str, str]:
+        """Pins and basis of a record that loaded; {field: problem} for each pin refused."""
+        pins, basis, problems = sharing.record_pins(text.encode("utf-8"))
+        if self._basis is not None:
+            self._basis.value = basis
+        if self._pins is not None:
+            problems.update(self._pins.restore(pins))
+        return problems
 
     def apply_link(self, query: dict[str, str]) -> dict[str, str]:
         """Restore the view a link describes; report every value that was refused."""

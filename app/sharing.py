@@ -2,9 +2,12 @@
 
 * ``base_name`` — ``powerlens_<design>_<date>``, shared by the exported pictures and the record.
 * ``record_json`` — the assumptions record of the current scenario (``powercore.record.make_record``),
-  with the page's own extras (the unit name) and the last simulation, if any.
+  with the basis of the assumed effect, the pinned scenarios, the page's own extras (the unit name)
+  and the last simulation, if any.
 * ``import_record`` — read a record (size first, then ``read_record``) and load it into the state, or
   return a message naming the field at fault while the state stays as it was.
+* ``record_pins`` — the pinned scenarios and basis of a record that has loaded: the good pins, and a
+  message for each bad one by its field (``pinned[2].assumptions.alpha``), so one bad pin costs only itself.
 * ``scenario_query`` / ``apply_query`` — every scenario field plus the schema version as URL query
   fields, and back; a bad value in a link is reported by field while the valid fields still apply.
 """
@@ -14,18 +17,18 @@ import datetime as _dt
 import json
 import math
 import urllib.parse
-from typing import Any, Mapping
+from typing import Any, Iterable, Mapping
 
 import powercore as pc
 from powercore import InvalidParameter, Scenario
 from powercore.errors import RecordError
-from powercore.record import MAX_RECORD_BYTES, make_record, read_record
+from powercore.record import MAX_RECORD_BYTES, Pinned, make_record, read_basis, read_pinned, read_record
 from powercore.scenario import SCHEMA_VERSION
 
 from .state import DEFAULT_ADJUSTMENTS, ExplorerState
 
 __all__ = ["MAX_RECORD_BYTES", "VIEWS", "apply_query", "base_name", "import_record", "parse_query_string",
-           "record_json", "scenario_query", "today"]
+           "record_json", "record_pins", "scenario_query", "today"]
 
 #: exported views: figure name in the document → the word in the file name
 VIEWS = {"densities": "density", "power-effect": "power-effect", "power-n": "power-n"}
@@ -51,9 +54,10 @@ def current_scenario(state: ExplorerState) -> Scenario:
     return snap.scenario
 
 
-def record_dict(state: ExplorerState, simulation: Mapping[str, Any] | None = None) -> dict[str, Any]:
+def record_dict(state: ExplorerState, simulation: Mapping[str, Any] | None = None,
+                pins: Iterable[Pinned] = (), basis: str | None = None) -> dict[str, Any]:
     snap = state.snapshot
-    rec = make_record(snap.scenario, snap.result)
+    rec = make_record(snap.scenario, snap.result, basis=basis, pinned=pins)
     extras = {"unit_name": snap.unit_name} if snap.unit_name else {}
     if extras:
         rec["extras"] = extras
@@ -62,8 +66,21 @@ def record_dict(state: ExplorerState, simulation: Mapping[str, Any] | None = Non
     return rec
 
 
-def record_json(state: ExplorerState, simulation: Mapping[str, Any] | None = None) -> str:
-    return json.dumps(record_dict(state, simulation), indent=2, ensure_ascii=False, allow_nan=False)
+def record_json(state: ExplorerState, simulation: Mapping[str, Any] | None = None,
+                pins: Iterable[Pinned] = (), basis: str | None = None) -> str:
+    return json.dumps(record_dict(state, simulation, pins, basis), indent=2, ensure_ascii=False, allow_nan=False)
+
+
+def record_pins(data: bytes | str | dict) -> tuple[list[Pinned], str | None, dict[str, str]]:
+    """(good pinned scenarios, basis, {field: problem} for each bad pin) of a record ``import_record`` took."""
+    problems: dict[str, str] = {}
+    pins = read_pinned(data, on_error=lambda e: problems.__setitem__(e.field, e.problem))
+    try:
+        basis = read_basis(data)
+    except RecordError as e:   # read_record refuses such a record first; kept for direct callers
+        problems[e.field] = e.problem
+        basis = None
+    return pins, basis, problems
 
 
 def _field_words(field: str) -> str:

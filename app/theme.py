@@ -6,7 +6,7 @@ hatching or lightness, so that a grey-scale print keeps them apart.
 """
 from __future__ import annotations
 
-__all__ = ["CSS", "FONT", "INK", "PALETTE", "button_look", "label_kw", "style_figure"]
+__all__ = ["BAND", "CSS", "FONT", "INK", "PALETTE", "PIN_STYLES", "button_look", "label_kw", "style_figure"]
 
 PALETTE = {
     "null": "#6E6E6E",         # neutral grey: the null hypothesis
@@ -19,6 +19,19 @@ PALETTE = {
     "detect": "#CC79A7",       # reddish purple: smallest detectable effect / required n
     "grid": "#E4E4E4",
 }
+#: pinned scenarios on the power curves: (colour, dash) per slot. Vermillion and sky blue from the
+#: Okabe–Ito set, indigo, olive, wine and teal from Paul Tol's colour-blind-safe "muted" set — none is
+#: the blue of the current curve, the green of the target or the purple of the required n, and each
+#: has its own dash so that a grey-scale print keeps them apart.
+PIN_STYLES = (
+    ("#D55E00", "dashed"),
+    ("#332288", "dotdash"),
+    ("#999933", [2, 3]),
+    ("#882255", "dashdot"),
+    ("#56B4E9", [12, 4]),
+    ("#44AA99", [12, 3, 3, 3, 3, 3]),
+)
+BAND = "#0072B2"      # the current curve's blue, translucent: uncertainty band around it
 INK = "#1A1A1A"
 FONT = "'DejaVu Sans', 'Segoe UI', Helvetica, Arial, sans-serif"
 AXIS_LABEL_PT = "15pt"
