@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING, Callable
 import panel as pn
 
 import powercore as pc
-from powercore.justification import BASES, DELTA2_NOTE, OBSERVED_WARNING, justification, standardized_only
+from powercore.justification import BASES, DELTA2_NOTE, OBSERVED_WARNING, check_basis, justification, standardized_only
 
 from .state import ExplorerState
 from .theme import PANE_CSS, PIN_STYLES, WIDGET_CSS, button_look, label_kw
@@ -98,7 +98,7 @@ class BasisField(pn.viewable.Viewer):
 
     @value.setter
     def value(self, basis: str | None) -> None:
-        pc.justification.check_basis(basis)
+        check_basis(basis)
         self.select.value = basis or ""
 
     def on_change(self, callback: Callable[[], None]) -> None:
