@@ -19,6 +19,7 @@ from .state import DEMO, ExplorerState
 from .text import SCALE_LABELS
 from . import speedups
 from .theme import PANE_CSS, WIDGET_CSS, button_look
+from .uncertainty_view import UncertaintyPanel
 
 __all__ = ["CAUTIONS", "Explorer", "create_app"]
 
@@ -54,6 +55,7 @@ class Explorer(pn.viewable.Viewer):
                              set_basis=lambda b: setattr(self.basis, "value", b))
         self.justification = JustificationCard(st, pins=self.pins, basis=self.basis)
         self.share = SharePanel(st, simulation=lambda: self.simulation, pins=self.pins, basis=self.basis)
+        self.uncertainty = UncertaintyPanel(st, on_band=self._band)
         self.scale = pn.widgets.RadioButtonGroup(
             options={v: k for k, v in SCALE_LABELS.items()}, value=st.scale,
             **button_look(), css_classes=["pl-scale"],
@@ -84,6 +86,17 @@ class Explorer(pn.viewable.Viewer):
         if snap is not None:
             self.n_curve.set_simulated(self.sim.points_for(snap.result.solved))
         self.sim.refresh()
+
+    def _band(self, effect_band, n_band) -> None:
+        """Draw (or clear, with None) the uncertainty panel's band on the two power curves."""
+        if effect_band is None:
+            self.effect_curve.set_band(None)
+        else:
+            self.effect_curve.set_band(*effect_band)
+        if n_band is None:
+            self.n_curve.set_band(None)
+        else:
+            self.n_curve.set_band(*n_band)
 
     def _changed(self, *events) -> None:
         """Schedule one refresh of the page on the server's event loop.
@@ -123,6 +136,7 @@ class Explorer(pn.viewable.Viewer):
             self.justification.update()
             self.sim.refresh()
             self.share.update()
+            self.uncertainty.update()
             if self.scale.value != st.scale:
                 self.scale.value = st.scale
 
@@ -154,6 +168,7 @@ class Explorer(pn.viewable.Viewer):
             self.densities,
             pn.Row(self.effect_curve, self.n_curve, sizing_mode="stretch_width", margin=0,
                    styles={"flex-wrap": "wrap"}),
+            self.uncertainty,
             self.working,
             self.justification,
             sizing_mode="stretch_width", margin=0, css_classes=["pl-main"])
