@@ -6,6 +6,7 @@ Uses the shared server and guarded pages of ``browser_support``; expected number
 from __future__ import annotations
 
 import json
+import xml.etree.ElementTree as ET
 from pathlib import Path
 
 import pytest
@@ -75,6 +76,12 @@ def test_two_pins_on_both_legends_and_record_round_trip(open_page, tmp_path):
     expect(table.locator("td.pl-diff").first).to_be_visible()
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     a.screenshot(path=str(ARTIFACTS / "pins.png"), full_page=True)
+    a.locator(".pl-export-view button", has_text="power vs effect").click()   # the export keeps the pins
+    with a.expect_download() as info:
+        a.locator(".pl-export-svg button").click()
+    root = ET.fromstring(Path(info.value.path()).read_bytes())
+    texts = [t.text or "" for t in root.iter() if t.tag.endswith("text")]
+    assert "bigger trial" in texts and "A" in texts and "current scenario" in texts
 
     with a.expect_download() as info:
         a.locator(".pl-download-record button").click()
