@@ -58,6 +58,10 @@ CONFIDENCE = 0.8
 Band = tuple[np.ndarray, np.ndarray, np.ndarray, str]
 
 CARD_CSS = ":host { font-size: 17px; } .card-title { font-size: 18px; font-weight: 700; }"
+# the download button is drawn like the page's other outlined buttons (Panel leaves it grey)
+DOWNLOAD_CSS = (".bk-btn.bk-btn-default { border: 1px solid #0072B2 !important; color: #0072B2 !important; "
+                "background: white !important; } .bk-btn.bk-btn-default:hover { background: #EAF3FA !important; } "
+                ".bk-btn a { color: inherit; }")
 UNC_CSS = PANE_CSS + """
 table.pl-readout th { white-space: normal; }
 table.pl-sens { border-collapse: collapse; font-size: 16px; margin: 4px 0; }
@@ -192,7 +196,7 @@ class UncertaintyPanel(pn.viewable.Viewer):
                                        css_classes=["pl-unc-table"], margin=(4, 10))
         self.download = pn.widgets.FileDownload(callback=self._csv_file, filename="powerlens-sensitivity.csv",
                                                 label="Download CSV", **solid, css_classes=["pl-unc-csv"],
-                                                stylesheets=[WIDGET_CSS], margin=(4, 10), width=200)
+                                                stylesheets=[WIDGET_CSS, DOWNLOAD_CSS], margin=(4, 10), width=200)
 
         for f in (self.prior_mean, self.prior_sd, self.pilot_sd, self.pilot_df, self.confidence,
                   self.band_low, self.band_high):
@@ -600,7 +604,9 @@ class UncertaintyPanel(pn.viewable.Viewer):
             self.band = None
         if self.band is not None and self.band_show.value and name:
             eb, nb = self.band
-            label = f"power for {snap.design.param(name).label} {num(eb.sd_low, 3)} to {num(eb.sd_high, 3)}"
+            words = snap.design.param(name).label.split()
+            sym = next((w for w in words if "σ" in w), name)
+            label = f"power, {sym} {num(eb.sd_low, 3)} to {num(eb.sd_high, 3)}"
             self._on_band((eb.x, eb.lower, eb.upper, label), (nb.x, nb.lower, nb.upper, label))
             self._band_shown = True
         elif self._band_shown:
@@ -652,7 +658,7 @@ class UncertaintyPanel(pn.viewable.Viewer):
         ci, cj = cur
         if kind == "sd":
             u = value_unit(param_unit(d, t.row_label, snap.unit_name))
-            corner = f"{t.row_label}{f' ({u})' if u else ''} \\ dropout"
+            corner = f"{d.param(t.row_label).label}{f' ({u})' if u else ''} \\ dropout"
             col_head = [f"{c:g}" for c in t.columns]
             what = (f"Enrolled total ({d.n.total_unit}) to reach the target power "
                     f"{num(snap.result.solved.target_power, 3)}, for each SD (rows) and expected dropout (columns).")

@@ -6,6 +6,8 @@ assurance comes from powercore on the same scenario and prior.
 """
 from __future__ import annotations
 
+import csv
+import io
 import re
 
 import pytest
@@ -22,7 +24,7 @@ pytestmark = [pytest.mark.browser, needs_browser]
 
 def test_open_card_type_prior_sd_and_read_assurance(open_page):
     """Opening the card and typing a prior SD shows powercore's assurance and its histogram; the main
-    readout is unchanged."""
+    readout is unchanged; a bad prior SD gets a message; the CSV download holds the table shown."""
     from playwright.sync_api import expect
     gp = open_page()
     page = gp.page
@@ -50,3 +52,14 @@ def test_open_card_type_prior_sd_and_read_assurance(open_page):
     expect(cell).to_have_text(num(a.assurance, 4))
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     page.locator(".pl-unc").first.screenshot(path=str(ARTIFACTS / "uncertainty-card.png"))
+    # the sensitivity table's CSV arrives as a file whose rows are the table's cells
+    page.get_by_text("Sensitivity table").click()
+    expect(page.locator("table.pl-sens td.pl-current")).to_have_text(str(pc.evaluate(demo(find="n")).n))
+    with page.expect_download() as info:
+        page.locator(".pl-unc-csv button").first.click()
+    dl = info.value
+    assert re.fullmatch(r"powerlens-sensitivity-two-means-t-\d{4}-\d{2}-\d{2}\.csv", dl.suggested_filename)
+    rows = list(csv.reader(io.StringIO(open(dl.path(), encoding="utf-8").read())))
+    shown = page.locator("table.pl-sens tbody tr").evaluate_all(
+        "trs => trs.map(tr => Array.from(tr.children).map(c => c.textContent.trim()))")
+    assert [r for r in rows[1:]] == shown
