@@ -51,11 +51,11 @@ DEBUG_STATS_ENV = "POWERLENS_DEBUG_STATS"
 MIN_PASSWORD = 8
 COOKIE = "powerlens_auth"
 # A closed tab's session is discarded once it has had no connection for UNUSED_LIFETIME_MS, checked
-# every CHECK_UNUSED_MS (Bokeh's defaults are 15 s and 17 s, so a session could outlive its tab by
-# half a minute). The lifetime also covers the gap between loading the page and its websocket
-# connecting, so it stays generous.
+# every CHECK_UNUSED_MS. Bokeh checks every 17 s, so a session could outlive its tab by half a minute;
+# checking every 2 s costs a loop over the sessions. The lifetime stays Bokeh's 15 s: it also covers
+# the gap between loading the page and its websocket connecting, which a busy machine stretches.
 CHECK_UNUSED_MS = 2_000
-UNUSED_LIFETIME_MS = 10_000
+UNUSED_LIFETIME_MS = 15_000
 
 
 class _RefuseInline(argparse.Action):
@@ -329,6 +329,25 @@ def _host_guard(server, allowed: list[str]) -> None:
     http.request_callback = HostGuard(app)
 
 
+def _local_style_sheets() -> None:
+    """Point this session's Panel style sheets at this server before any model is made.
+
+    Panel 1.9 files each model's style sheets under its CDN address and rewrites them to this
+    server's ``dist_url`` only when it renders the page, reading the URL from the document's
+    template variables. A model made before that (or beside it, while five pages open at once) kept
+    the CDN address: the browser then asked cdn.holoviz.org for ``loading.css`` and
+    ``listpanel.css``. Setting the variable first, as Panel itself later does, leaves nothing to
+    rewrite.
+    """
+    import panel as pn
+    from panel.io.resources import LOCAL_DIST
+
+    doc = pn.state.curdoc
+    if doc is not None:
+        rel = pn.state.rel_path
+        doc._template_variables.setdefault("dist_url", f"{rel}/{LOCAL_DIST}" if rel else LOCAL_DIST)
+
+
 def _session_page():
     """One browser session's page, with what Panel keeps after the session ends released at its end.
 
@@ -347,6 +366,7 @@ def _session_page():
 
     from .explorer import create_app
 
+    _local_style_sheets()
     before = {id(k) for k in list(Callback.registry.keys())}
     page = create_app()
     filed = [weakref.ref(k) for k in list(Callback.registry.keys()) if id(k) not in before]
@@ -389,6 +409,11 @@ def run(args: argparse.Namespace) -> int:
     from .theme import CSS
 
     settings.resources.set_value("server")   # every script from this server, whatever BOKEH_RESOURCES says
+    # ...and the same when the value above is unset: Panel 1.9's ``set_resource_mode`` swaps this global
+    # setting in and out while pages render, so concurrent renders can restore it to "unset", and
+    # Bokeh's fallback is its CDN (seen with five sessions opening at once: the page asked
+    # cdn.holoviz.org for its style sheets). The variable makes the fallback this server too.
+    os.environ["BOKEH_RESOURCES"] = "server"
     address = args.address
     if args.threads < 1:
         print("powerlens serve: --threads must be at least 1", file=sys.stderr)

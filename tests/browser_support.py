@@ -41,13 +41,38 @@ elif not (os.path.exists(CHROMIUM) and os.access(CHROMIUM, os.X_OK)):
 
 needs_browser = pytest.mark.skipif(skip_reason is not None, reason=skip_reason or "")
 
-__all__ = ["ARTIFACTS", "GuardedPage", "browser", "needs_browser", "open_page", "server",
-           "start_server", "stop_server", "wait_ready"]
+__all__ = ["ARTIFACTS", "DONE_JS", "ELAPSED_JS", "GuardedPage", "HOOK_JS", "browser", "needs_browser",
+           "open_page", "server", "start_server", "stop_server", "wait_ready"]
 
 READY_JS = """() => { const d = window.Bokeh && Bokeh.documents[0];
     const names = ['densities', 'power-effect', 'power-n'];
     return !!d && names.every(n => { const m = d.get_model_by_name(n);
         const v = m && Bokeh.index.find_one(m); return !!(v && v.has_finished()); }); }"""
+
+
+# Slider latency on the page clock (tests/benchmarks/bench_app.py, bench_load.py): HOOK_JS marks each
+# keydown, then the first data change and the first repaint after it in each of the three figures;
+# DONE_JS says all three have repainted, ELAPSED_JS gives keydown to the last repaint in ms.
+HOOK_JS = """() => {
+  const doc = Bokeh.documents[0];
+  const figs = ['densities', 'power-effect', 'power-n'];
+  const sources = {densities: ['density-curve', 'density-bars-null', 'density-bars-alt'],
+                   'power-effect': ['effect-curve'], 'power-n': ['n-curve']};
+  window.__lat = {t0: null, data: {}, paint: {}};
+  document.addEventListener('keydown', () => { window.__lat = {t0: performance.now(), data: {}, paint: {}}; }, true);
+  for (const f of figs) {
+    for (const s of sources[f]) {
+      const src = doc.get_model_by_name(s);
+      src.properties.data.change.connect(() => {
+        const L = window.__lat; if (L.t0 !== null && L.data[f] === undefined) L.data[f] = performance.now(); });
+    }
+    const view = Bokeh.index.find_one(doc.get_model_by_name(f));
+    view.repainted.connect(() => { const L = window.__lat;
+      if (L.t0 !== null && L.data[f] !== undefined && L.paint[f] === undefined) L.paint[f] = performance.now(); });
+  }
+}"""
+DONE_JS = "() => ['densities', 'power-effect', 'power-n'].every(f => window.__lat.paint[f] !== undefined)"
+ELAPSED_JS = "() => Math.max(...Object.values(window.__lat.paint)) - window.__lat.t0"
 
 
 class ServerProcess:

@@ -25,30 +25,11 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))          # reposito
 from playwright.sync_api import sync_playwright  # noqa: E402
 
 import powercore as pc  # noqa: E402
-from browser_support import CHROMIUM, CHROMIUM_ARGS, GuardedPage, start_server, stop_server  # noqa: E402
+from browser_support import (CHROMIUM, CHROMIUM_ARGS, DONE_JS, ELAPSED_JS, HOOK_JS, GuardedPage,  # noqa: E402
+                             start_server, stop_server)
 
 DESIGNS = ("two-means-t", "two-proportions", "correlation-fisher")
 
-HOOK_JS = """() => {
-  const doc = Bokeh.documents[0];
-  const figs = ['densities', 'power-effect', 'power-n'];
-  const sources = {densities: ['density-curve', 'density-bars-null', 'density-bars-alt'],
-                   'power-effect': ['effect-curve'], 'power-n': ['n-curve']};
-  window.__lat = {t0: null, data: {}, paint: {}};
-  document.addEventListener('keydown', () => { window.__lat = {t0: performance.now(), data: {}, paint: {}}; }, true);
-  for (const f of figs) {
-    for (const s of sources[f]) {
-      const src = doc.get_model_by_name(s);
-      src.properties.data.change.connect(() => {
-        const L = window.__lat; if (L.t0 !== null && L.data[f] === undefined) L.data[f] = performance.now(); });
-    }
-    const view = Bokeh.index.find_one(doc.get_model_by_name(f));
-    view.repainted.connect(() => { const L = window.__lat;
-      if (L.t0 !== null && L.data[f] !== undefined && L.paint[f] === undefined) L.paint[f] = performance.now(); });
-  }
-}"""
-DONE_JS = "() => ['densities', 'power-effect', 'power-n'].every(f => window.__lat.paint[f] !== undefined)"
-ELAPSED_JS = "() => Math.max(...Object.values(window.__lat.paint)) - window.__lat.t0"
 
 
 def percentile(xs, q):

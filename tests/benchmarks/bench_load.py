@@ -1,0 +1,207 @@
+"""Many sessions at once in headless Chromium; prints figures (not a pytest test).
+
+    python3 tests/benchmarks/bench_load.py [--sessions 20] [--changes 50] [--cycles 200] [--batch 10]
+
+One Chromium, one context and page per session, all driven from one thread with Playwright's async
+API (tests/load_support.py). The server runs with POWERLENS_DEBUG_STATS=1 for its counts.
+
+1. Errors: console errors, page errors and requests off 127.0.0.1 in every session (none allowed).
+2. Isolation: session i makes ``--changes`` arrow presses on the effect slider whose net move is
+   different for every session; at the end each slider must sit at its own effect and each readout
+   must show powercore's power for that effect.
+3. Update latency: keydown to the last of the three figures redrawn (page clock), over every change
+   of every session after its first three: p50, p95, max (budget p95 < 250 ms).
+4. Simulation in one session: session 0 runs the page's confirm-by-simulation on a large run
+   (log-rank, 1,000 events, 100,000 replicates) while the others keep changing. Stall measure:
+   the rise of the other sessions' p95 latency over their p95 in step 3, and their longest single
+   update, for the changes pressed while the simulation was running (budget: p95 rise < 150 ms).
+5. Open and close ``--cycles`` sessions, ``--batch`` at a time: server RSS once a first batch has
+   come and gone, and after all cycles once the closed sessions are discarded (budget growth < 10%);
+   live sessions and ExplorerState objects in the server before and after (must return to 0).
+"""
+from __future__ import annotations
+
+import argparse
+import asyncio
+import statistics
+import sys
+import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))          # tests/
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))          # repository root
+
+from playwright.async_api import async_playwright  # noqa: E402
+
+import powercore as pc  # noqa: E402
+from browser_support import start_server, stop_server  # noqa: E402
+from load_support import (EFFECT_STEP, LoadSession, cycle_sessions, debug_stats, expected_power_text,  # noqa: E402
+                          key_plan, launch, wait_released)
+
+WARMUP = 3     # the first changes of each session warm caches in the browser and the server
+
+
+def percentile(xs, q):
+    xs = sorted(xs)
+    k = (len(xs) - 1) * q
+    lo, hi = int(k), min(int(k) + 1, len(xs) - 1)
+    return xs[lo] + (xs[hi] - xs[lo]) * (k - lo)
+
+
+def summary(ms) -> str:
+    return (f"p50 {statistics.median(ms):6.1f} ms   p95 {percentile(ms, 0.95):6.1f} ms   max {max(ms):6.1f} ms"
+            f"   ({len(ms)} changes)")
+
+
+async def start_simulation(s: LoadSession) -> None:
+    """Session ``s``: log-rank design at 1,000 events, 100,000 replicates, start (tests/test_browser_share.py)."""
+    page = s.page
+    d = pc.get_design("logrank-events")
+    await page.locator(".pl-design select").select_option(label=d.title)
+    want = expected_for(pc.Scenario(design=d.id, params=d.defaults(), n=1000))
+    box = page.locator(".pl-box-n input")
+    await box.fill("1000")
+    await box.press("Enter")
+    if not await s.shows_power(want, timeout=30):
+        raise RuntimeError("session 0 did not switch to the log-rank design at 1,000 events")
+    await page.locator(".pl-sim-reps button", has_text="100,000").click()
+    await page.locator(".pl-sim-start button").click()
+    for _ in range(300):                     # the Cancel button is enabled while the run goes on
+        if await simulation_running(s):
+            return
+        await asyncio.sleep(0.1)
+    raise RuntimeError("the simulation in session 0 did not start")
+
+
+def expected_for(scenario) -> str:
+    from app.text import num
+    return num(pc.evaluate(scenario).power, 4)
+
+
+async def simulation_running(s: LoadSession) -> bool:
+    return await s.page.locator(".pl-sim-cancel button").is_enabled()
+
+
+async def run(args) -> int:
+    password = "bench-load-pass"   # invented
+    pw_file = Path("/tmp") / f"powerlens-bench-load-{int(time.time())}.pw"
+    pw_file.write_text(password + "\n", encoding="utf-8")
+    srv = start_server("--password-file", str(pw_file), env={"POWERLENS_DEBUG_STATS": "1"}, timeout=60)
+    pw_file.unlink()
+    print(f"server on {srv.url} (password login in every session; POWERLENS_DEBUG_STATS=1)")
+    ok = True
+    try:
+        async with async_playwright() as p:
+            browser = await launch(p)
+            n = args.sessions
+            sessions = [LoadSession(browser, srv.url, password, name=f"session {i}") for i in range(n)]
+            t0 = time.perf_counter()
+            await asyncio.gather(*(s.open() for s in sessions))
+            print(f"{n} sessions open (login, page, three figures drawn) in {time.perf_counter() - t0:.1f} s; "
+                  f"server: {debug_stats(srv.port)}")
+            start = [await s.effect() for s in sessions]
+            await asyncio.gather(*(s.hook() for s in sessions))
+            nets = [2 * i - n for i in range(n)]          # -20, -18, ..., 18: a different end for each
+
+            async def drive(s, net, seed):
+                for key in key_plan(net, args.changes, seed):
+                    await s.change(key)
+
+            t0 = time.perf_counter()
+            await asyncio.gather(*(drive(s, net, i) for i, (s, net) in enumerate(zip(sessions, nets))))
+            wall = time.perf_counter() - t0
+            own = 0
+            for i, (s, s0, net) in enumerate(zip(sessions, start, nets)):
+                effect = await s.effect()
+                want = expected_power_text(effect)
+                right = abs(effect - (s0 + net * EFFECT_STEP)) < 1e-9 and await s.shows_power(want)
+                own += right
+                if not right:
+                    print(f"  session {i}: effect {effect} (expected {s0 + net * EFFECT_STEP:.1f}), "
+                          f"readout {await s.power_text()!r}, powercore {want}")
+            ok &= own == n
+            print(f"isolation: {own}/{n} sessions end at their own effect (net moves {nets[0]}..{nets[-1]} "
+                  f"steps of {EFFECT_STEP}) with powercore's power in the readout")
+            base = [ms for s in sessions for _, ms in s.latencies[WARMUP:]]
+            print(f"update latency, {n} sessions x {args.changes} changes at once ({wall:.1f} s wall):")
+            print(f"  all sessions     {summary(base)}   budget p95 < 250 ms")
+            others_base = [ms for s in sessions[1:] for _, ms in s.latencies[WARMUP:]]
+
+            # ---- a simulation in session 0 while the others change ------------------------------
+            sim = sessions[0]
+            for s in sessions[1:]:
+                s.latencies.clear()
+            await start_simulation(sim)
+            loop = asyncio.get_running_loop()
+            sim_start = loop.time()
+            print("simulation running in session 0 (log-rank, 1,000 events, 100,000 replicates)")
+            rounds = 0
+            while await simulation_running(sim) and rounds < args.sim_rounds:
+                await asyncio.gather(*(s.change("ArrowRight" if rounds % 2 == 0 else "ArrowLeft")
+                                       for s in sessions[1:]))
+                rounds += 1
+            still = await simulation_running(sim)
+            sim_end = loop.time()
+            if still:
+                await sim.page.locator(".pl-sim-cancel button").click()
+            during = [ms for s in sessions[1:] for pressed, ms in s.latencies if sim_start <= pressed <= sim_end]
+            if during:
+                rise = percentile(during, 0.95) - percentile(others_base, 0.95)
+                print(f"  other sessions, before           {summary(others_base)}")
+                print(f"  other sessions, while simulating {summary(during)}")
+                print(f"  stall measure: p95 rise {rise:+.1f} ms (budget < 150 ms); longest update "
+                      f"{max(during):.1f} ms; {rounds} rounds of changes in {sim_end - sim_start:.1f} s of "
+                      f"simulation ({'cancelled after the rounds' if still else 'it finished first'})")
+            else:
+                print("  no change was pressed while the simulation ran")
+            errors = [e for s in sessions for e in s.errors]
+            external = [u for s in sessions for u in s.external]
+            print(f"errors: {len(errors)} console/page errors, {len(external)} requests off 127.0.0.1 (none allowed)")
+            for e in (errors + external)[:10]:
+                print("  ", e)
+            ok &= not errors and not external
+            for s in sessions:
+                await s.close()
+            released, secs = await wait_released(srv.port, timeout=60)
+            print(f"after closing the {n} sessions: {released} ({secs:.1f} s)")
+
+            # ---- open and close -----------------------------------------------------------------
+            warm_errors = await cycle_sessions(browser, srv.url, args.batch, args.batch, password)
+            before, _ = await wait_released(srv.port, timeout=60)
+            t0 = time.perf_counter()
+            cycle_errors = await cycle_sessions(browser, srv.url, args.cycles, args.batch, password)
+            took = time.perf_counter() - t0
+            after, secs = await wait_released(srv.port, timeout=60)
+            growth = (after["rss_kb"] - before["rss_kb"]) / before["rss_kb"]
+            print(f"{args.cycles} open-and-close cycles, {args.batch} at a time, in {took:.0f} s "
+                  f"(after {args.batch} warm-up cycles):")
+            print(f"  server RSS {before['rss_kb'] / 1024:.1f} MB before, {after['rss_kb'] / 1024:.1f} MB after: "
+                  f"{100 * growth:+.1f}%  budget < 10%")
+            print(f"  live sessions {before['sessions']} -> {after['sessions']}, ExplorerState objects "
+                  f"{before['explorer_states']} -> {after['explorer_states']}, simulation threads "
+                  f"{after['simulation_threads']} ({secs:.1f} s after the last close)")
+            print(f"  errors in the cycles: {len(warm_errors + cycle_errors)}")
+            ok &= after["explorer_states"] == 0 and after["sessions"] == 0 and not (warm_errors + cycle_errors)
+            await browser.close()
+    finally:
+        code, _, err = stop_server(srv.proc)
+        print(f"server stopped, exit code {code}{'; Traceback in its log' if 'Traceback' in err else ''}")
+    print("all checks passed" if ok else "SOME CHECKS FAILED")
+    return 0 if ok else 1
+
+
+def main() -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--sessions", type=int, default=20)
+    ap.add_argument("--changes", type=int, default=50)
+    ap.add_argument("--sim-rounds", type=int, default=20, help="rounds of changes while simulating (default 20)")
+    ap.add_argument("--cycles", type=int, default=200)
+    ap.add_argument("--batch", type=int, default=10)
+    args = ap.parse_args()
+    if args.changes < args.sessions or (args.changes + args.sessions) % 2:
+        ap.error("--changes must be at least --sessions and of the same parity (each session's net move differs)")
+    return asyncio.run(run(args))
+
+
+if __name__ == "__main__":
+    sys.exit(main())

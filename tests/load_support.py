@@ -1,0 +1,142 @@
+"""Many sessions at once in one headless Chromium, for tests/test_load.py and tests/benchmarks/bench_load.py.
+
+Playwright's sync API cannot be shared by threads, so every session here is driven by the async API
+from one thread: each session is one browser context with one page, and ``asyncio.gather`` runs
+them side by side. Latency is measured on each page's own clock with the hooks of
+``browser_support.HOOK_JS`` (keydown on the effect slider to the last of the three figures redrawn).
+"""
+from __future__ import annotations
+
+import asyncio
+import json
+import random
+import re
+import urllib.parse
+import urllib.request
+
+from browser_support import CHROMIUM, CHROMIUM_ARGS, DONE_JS, ELAPSED_JS, HOOK_JS, POWER, READY_JS, demo
+
+__all__ = ["LoadSession", "cycle_sessions", "debug_stats", "expected_power_text", "key_plan", "launch",
+           "wait_released"]
+
+EFFECT_HANDLE = ".pl-slider-effect .noUi-handle"
+EFFECT_STEP = 0.1      # the effect slider's step for the demo design (powercore/means.py, ParamSpec delta)
+
+
+async def launch(playwright):
+    """Debian's Chromium, headless, never a downloaded one."""
+    return await playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+
+
+def debug_stats(port: int) -> dict:
+    """The server's /debug/stats counts (started with POWERLENS_DEBUG_STATS=1)."""
+    with urllib.request.urlopen(f"http://127.0.0.1:{port}/debug/stats", timeout=60) as r:
+        return json.loads(r.read())
+
+
+async def wait_released(port: int, live: int = 0, timeout: float = 40.0) -> tuple[dict, float]:
+    """Wait until no more than ``live`` sessions and ExplorerState objects remain; (last counts, seconds)."""
+    loop = asyncio.get_running_loop()
+    t0 = loop.time()
+    while True:
+        s = await asyncio.to_thread(debug_stats, port)
+        if (s["sessions"] <= live and s["explorer_states"] <= live) or loop.time() - t0 > timeout:
+            return s, loop.time() - t0
+        await asyncio.sleep(1.0)
+
+
+def key_plan(net: int, changes: int, seed: int) -> list[str]:
+    """``changes`` arrow presses whose net move is ``net`` steps, in a seeded order."""
+    if (changes + net) % 2 or abs(net) > changes:
+        raise ValueError(f"cannot move {net} steps net in {changes} presses")
+    right = (changes + net) // 2
+    keys = ["ArrowRight"] * right + ["ArrowLeft"] * (changes - right)
+    random.Random(seed).shuffle(keys)
+    return keys
+
+
+def expected_power_text(effect: float) -> str:
+    """powercore's power for the demo at this effect, as the readout prints it."""
+    import powercore as pc
+    from app.text import num
+    return num(pc.evaluate(demo(params={**demo().params, "delta": effect})).power, 4)
+
+
+class LoadSession:
+    """One browser context and page on the explorer; records console errors and requests off 127.0.0.1."""
+
+    def __init__(self, browser, url: str, password: str | None = None, name: str = "") -> None:
+        self.browser, self.url, self.password, self.name = browser, url, password, name
+        self.errors: list[str] = []
+        self.external: list[str] = []
+        self.latencies: list[tuple[float, float]] = []   # (event-loop time of the press in s, latency in ms)
+        self.context = self.page = None
+
+    async def _guard(self, route) -> None:
+        if urllib.parse.urlparse(route.request.url).hostname == "127.0.0.1":
+            await route.continue_()
+        else:
+            self.external.append(route.request.url)
+            await route.abort()
+
+    async def open(self, timeout: float = 60_000) -> None:
+        self.context = await self.browser.new_context(viewport={"width": 1400, "height": 1000})
+        await self.context.route("**/*", self._guard)
+        self.page = page = await self.context.new_page()
+        page.on("console", lambda m: self.errors.append(f"{self.name}: {m.text}") if m.type == "error" else None)
+        page.on("pageerror", lambda e: self.errors.append(f"{self.name}: pageerror: {e}"))
+        page.on("requestfailed", lambda r: self.errors.append(f"{self.name}: request failed: {r.url} {r.failure}"))
+        await page.goto(self.url, timeout=timeout)
+        if self.password is not None:
+            await page.fill("#pl-password", self.password)
+            await page.click("button[type=submit]")
+        await page.wait_for_function(READY_JS, timeout=timeout)
+
+    async def hook(self) -> None:
+        await self.page.evaluate(HOOK_JS)
+        await self.page.locator(EFFECT_HANDLE).focus()
+
+    async def change(self, key: str, timeout: float = 30_000) -> float:
+        """Press one arrow key on the effect slider; the latency in ms until all three views are redrawn."""
+        pressed = asyncio.get_running_loop().time()
+        await self.page.keyboard.press(key)
+        await self.page.wait_for_function(DONE_JS, timeout=timeout, polling=10)
+        ms = await self.page.evaluate(ELAPSED_JS)
+        self.latencies.append((pressed, ms))
+        return ms
+
+    async def effect(self) -> float:
+        return float(await self.page.locator(EFFECT_HANDLE).get_attribute("aria-valuenow"))
+
+    async def power_text(self) -> str:
+        return (await self.page.locator(POWER).inner_text()).strip()
+
+    async def shows_power(self, want: str, timeout: float = 15.0) -> bool:
+        """Whether the power readout comes to show ``want`` (its first word) within ``timeout`` s."""
+        loop = asyncio.get_running_loop()
+        t0 = loop.time()
+        while loop.time() - t0 < timeout:
+            if re.match(rf"^{re.escape(want)}\b", await self.power_text()):
+                return True
+            await asyncio.sleep(0.2)
+        return False
+
+    async def close(self) -> None:
+        if self.context is not None:
+            await self.context.close()
+            self.context = None
+
+
+async def cycle_sessions(browser, url: str, cycles: int, batch: int, password: str | None = None) -> list[str]:
+    """Open and close ``cycles`` sessions, ``batch`` at a time; returns their console errors."""
+    errors: list[str] = []
+    done = 0
+    while done < cycles:
+        group = [LoadSession(browser, url, password, name=f"cycle {done + i}")
+                 for i in range(min(batch, cycles - done))]
+        await asyncio.gather(*(s.open() for s in group))
+        for s in group:
+            await s.close()
+            errors += s.errors + [f"{s.name}: request off 127.0.0.1: {u}" for u in s.external]
+        done += len(group)
+    return errors
