@@ -167,6 +167,7 @@ class JustificationCard(pn.viewable.Viewer):
         self.basis = basis
         self.current = _Block("current")
         self.blocks = [_Block(str(i)) for i in range(len(PIN_STYLES))]
+        self._made: dict[int, tuple] = {}
         intro = pn.pane.HTML('<p class="pl-note">Each paragraph takes every number from the assumptions record of '
                              'its scenario. Check the wording against the reporting rules that apply to the '
                              'study.</p>', stylesheets=[PANE_CSS], margin=(0, 10), sizing_mode="stretch_width")
@@ -210,4 +211,7 @@ class JustificationCard(pn.viewable.Viewer):
             colour = PIN_STYLES[slot][0]
             head = (f'<p class="pl-just-head"><span style="color:{colour}">■</span> Pinned: '
                     f'{html.escape(pin.name)}</p>')
-            block.show(head, justification(pin.result, version, pin.basis), warn=pin.basis == "observed")
+            made = self._made.get(slot)
+            if made is None or made[0] is not pin.result or made[1] != pin.basis:   # made once per pin
+                made = self._made[slot] = (pin.result, pin.basis, justification(pin.result, version, pin.basis))
+            block.show(head, made[2], warn=pin.basis == "observed")

@@ -177,6 +177,7 @@ class PinBoard(pn.viewable.Viewer):
         self._basis = basis or (lambda: None)
         self._set_basis = set_basis
         self.pins: list[Pin] = []
+        self._columns: dict[int, tuple] = {}   # slot → (result, (unit, basis), table column)
         self._listeners: list[Callable[[], None]] = []
         self._suggested = ""
         look = button_look()
@@ -381,6 +382,15 @@ class PinBoard(pn.viewable.Viewer):
                 fig.set_pins(n if fig.fig.name == "power-n" else effect)
             self._update_table()
 
+    def _column(self, pin: Pin) -> list[tuple[str, str]]:
+        """A pin's column of the table, made once per pin (only the current column changes while dragging)."""
+        cache = self._columns
+        made = cache.get(pin.slot)
+        if made is None or made[0] is not pin.result or made[1] != (pin.unit_name, pin.basis):
+            made = cache[pin.slot] = (pin.result, (pin.unit_name, pin.basis),
+                                      comparison_rows(pin.result, pin.unit_name, pin.basis))
+        return made[2]
+
     def _update_table(self) -> None:
         snap = self.state.snapshot
         if not self.pins or snap is None:
@@ -388,7 +398,7 @@ class PinBoard(pn.viewable.Viewer):
                 self.table.visible = False
             return
         current = comparison_rows(snap.result, snap.unit_name, self._basis())
-        columns = [comparison_rows(p.result, p.unit_name, p.basis) for p in self.pins]
+        columns = [self._column(p) for p in self.pins]
         head = ['<th scope="col">current scenario</th>']
         for p in self.pins:
             colour, dash = PIN_STYLES[p.slot]
