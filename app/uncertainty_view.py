@@ -201,8 +201,9 @@ class UncertaintyPanel(pn.viewable.Viewer):
         for f in (self.prior_mean, self.prior_sd, self.pilot_sd, self.pilot_df, self.confidence,
                   self.band_low, self.band_high):
             f.box.param.watch(lambda e, key=f.key: self._typed_in(key), "value")
-        for w in (self.sd_name, self.band_show, self.grid_kind):
+        for w in (self.band_show, self.grid_kind):
             w.param.watch(lambda e: self._input_changed(), "value")
+        self.sd_name.param.watch(lambda e: self._sd_chosen(), "value")
 
         intro = ('<p class="pl-note">Power is computed at assumed values. Here you see how much it depends '
                  'on them. These numbers are for planning only; never compute “observed power” from a '
@@ -285,6 +286,16 @@ class UncertaintyPanel(pn.viewable.Viewer):
         if snap is None:
             return
         self._compute(snap, tabs=not self.card.collapsed)
+
+    def _sd_chosen(self) -> None:
+        """Another SD parameter: the pilot SD and the band start again from its value."""
+        if self._syncing:
+            return
+        self._typed -= {"pilot-sd", "band-low", "band-high"}
+        snap = self.state.snapshot
+        if snap is not None:
+            self._follow(snap)
+        self._input_changed()
 
     def _opened(self) -> None:
         snap = self.state.snapshot

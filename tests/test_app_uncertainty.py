@@ -259,3 +259,31 @@ def test_slow_designs_are_worked_out_on_request(app, unc, monkeypatch):
                                           unc.band_high.value, effects=app.effect_curve.src_band.data["x"]).upper)
     unc.recompute.clicks += 1
     assert not unc._stale_row.visible and value(unc.assurance_pane.object, "at-n").startswith("n = 75 ")
+
+
+def test_when_finding_n_assurance_is_at_the_n_found(app, unc):
+    """With 'find sample size' the assurance is computed at the n found, and says so."""
+    app.state.find = "n"
+    app.refresh()
+    sc = app.state.snapshot.result.solved
+    assert sc.n == pc.evaluate(demo(find="n")).n
+    text = value(unc.assurance_pane.object, "at-n")
+    assert text.startswith(f"n = {sc.n} ") and "the sample size found" in text
+    a = assurance(sc, unc.prior_mean.value, unc.prior_sd.value, grid=DIST_GRID)
+    assert value(unc.assurance_pane.object, "assurance") == num(a.assurance, 4)
+
+
+def test_two_sd_design_offers_a_choice_of_sd(app, unc):
+    """A design with an SD per group shows the SD picker; the limit and the band use the SD chosen."""
+    app.state.load(pc.Scenario("two-means-welch", {"delta": 5.0, "sd1": 8.0, "sd2": 12.0}, n=40))
+    app.refresh()
+    assert unc.sd_name.visible and unc.sd_name.options == ["sd1", "sd2"]
+    unc.sd_name.value = "sd2"
+    unc.update()
+    assert unc.pilot_sd.value == 12.0
+    assert value(unc.spread_pane.object, "sd-upper").split()[0] == num(sd_upper_limit(12.0, 20, 0.8), 4)
+    unc.band_show.value = True
+    eb = unc.band[0]
+    assert eb.sd_name == "sd2"
+    ref = power_band(app.state.snapshot.result.solved, "sd2", eb.sd_low, eb.sd_high, effects=eb.x)
+    np.testing.assert_allclose(app.effect_curve.src_band.data["lo"], ref.lower)
