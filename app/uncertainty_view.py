@@ -24,6 +24,7 @@ from __future__ import annotations
 import datetime as _dt
 import html
 import io
+import logging
 import math
 from typing import Any, Callable
 
@@ -43,6 +44,8 @@ from .text import effect_unit, num, param_unit, value_unit
 from .theme import FONT, INK, PALETTE, PANE_CSS, WIDGET_CSS, button_look, label_kw, style_figure
 
 __all__ = ["TARGET_POWERS", "UncertaintyPanel"]
+
+log = logging.getLogger("powerlens.app")
 
 #: target powers of the sensitivity table's columns (the scenario's own target is added)
 TARGET_POWERS = (0.8, 0.85, 0.9, 0.95)
@@ -380,12 +383,12 @@ class UncertaintyPanel(pn.viewable.Viewer):
         import time
         t0 = time.perf_counter()
         with pn.io.hold():
-            self._band(snap)
+            self._guarded(self._band, snap, None)
             if tabs:
                 t1 = time.perf_counter()
-                self._assurance(snap)
-                self._spread(snap)
-                self._table(snap)
+                self._guarded(self._assurance, snap, self.assurance_pane)
+                self._guarded(self._spread, snap, self.spread_pane)
+                self._guarded(self._table, snap, self.table_pane)
                 self._dirty = False
                 self._tabs_ms = 1000 * (time.perf_counter() - t1)
                 self._tabs_for = (snap.scenario, snap.unit_name)
@@ -401,6 +404,18 @@ class UncertaintyPanel(pn.viewable.Viewer):
                                          'worked out on request.</p>')
                     self._stale_row.visible = True
         self.timing_ms = 1000 * (time.perf_counter() - t0)
+
+    @staticmethod
+    def _guarded(part, snap: Snapshot, pane) -> None:
+        """Run one tab's computation; a numeric failure shows in that tab, never breaks the page."""
+        try:
+            with np.errstate(all="ignore"):
+                part(snap)
+        except (ValueError, ArithmeticError, RuntimeError, TypeError) as e:
+            log.warning("uncertainty panel: %s failed for %s: %s", part.__name__, snap.scenario.design, e)
+            if pane is not None:
+                pane.object = (f'<p class="pl-stale" role="alert">Could not compute this for the current '
+                               f'scenario: {_e(e)}</p>')
 
     def _messages(self, errors: dict[str, str], fields) -> None:
         for f in fields:

@@ -287,3 +287,33 @@ def test_two_sd_design_offers_a_choice_of_sd(app, unc):
     assert eb.sd_name == "sd2"
     ref = power_band(app.state.snapshot.result.solved, "sd2", eb.sd_low, eb.sd_high, effects=eb.x)
     np.testing.assert_allclose(app.effect_curve.src_band.data["lo"], ref.lower)
+
+
+@pytest.mark.parametrize("design", [d.id for d in pc.designs()])
+def test_every_design_fills_the_three_tabs(design):
+    """For each design's default scenario the open card shows an assurance, the spread tab and a table,
+    with no failure message."""
+    from app.state import ExplorerState
+    from app.uncertainty_view import UncertaintyPanel
+    st = ExplorerState(demo=False, design=design)
+    panel = UncertaintyPanel(st, collapsed=False)
+    panel.update()
+    assert panel.assurance is not None and 0.0 <= panel.assurance.assurance <= 1.0
+    assert panel.table is not None and len(panel.table.rows) >= 1
+    for pane in (panel.assurance_pane, panel.spread_pane, panel.table_pane):
+        assert "Could not compute" not in pane.object
+
+
+def test_a_numeric_failure_stays_in_its_tab(app, unc, monkeypatch):
+    """A failure inside one tab's computation shows there; the other tabs and the main views carry on."""
+    import app.uncertainty_view as uv
+
+    def broken(*args, **kwargs):
+        raise ArithmeticError("overflow in a test double")
+    monkeypatch.setattr(uv, "sensitivity_effect_power", broken)
+    snap = app.state.snapshot
+    unc.prior_sd.box.value = 6.0
+    assert "Could not compute" in unc.table_pane.object and "overflow in a test double" in unc.table_pane.object
+    assert value(unc.assurance_pane.object, "assurance") == num(
+        assurance(snap.result.solved, 20.0, 6.0, grid=DIST_GRID).assurance, 4)
+    assert app.state.snapshot is snap
