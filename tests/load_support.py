@@ -79,7 +79,7 @@ class LoadSession:
             self.external.append(route.request.url)
             await route.abort()
 
-    async def open(self, timeout: float = 60_000) -> None:
+    async def open(self, timeout: float = 120_000) -> None:
         self.context = await self.browser.new_context(viewport={"width": 1400, "height": 1000})
         await self.context.route("**/*", self._guard)
         self.page = page = await self.context.new_page()
@@ -89,7 +89,8 @@ class LoadSession:
         await page.goto(self.url, timeout=timeout)
         if self.password is not None:
             await page.fill("#pl-password", self.password)
-            await page.click("button[type=submit]")
+            async with page.expect_navigation(wait_until="commit", timeout=timeout):
+                await page.click("button[type=submit]", no_wait_after=True)
         await page.wait_for_function(READY_JS, timeout=timeout)
 
     async def hook(self) -> None:

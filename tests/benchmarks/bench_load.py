@@ -1,6 +1,6 @@
 """Many sessions at once in headless Chromium; prints figures (not a pytest test).
 
-    python3 tests/benchmarks/bench_load.py [--sessions 20] [--changes 50] [--cycles 200] [--batch 10]
+    python3 tests/benchmarks/bench_load.py [--sessions 20] [--changes 50] [--cycles 200] [--batch 5]
 
 One Chromium, one context and page per session, all driven from one thread with Playwright's async
 API (tests/load_support.py). The server runs with POWERLENS_DEBUG_STATS=1 for its counts.
@@ -96,9 +96,10 @@ async def run(args) -> int:
             n = args.sessions
             sessions = [LoadSession(browser, srv.url, password, name=f"session {i}") for i in range(n)]
             t0 = time.perf_counter()
-            await asyncio.gather(*(s.open() for s in sessions))
-            print(f"{n} sessions open (login, page, three figures drawn) in {time.perf_counter() - t0:.1f} s; "
-                  f"server: {debug_stats(srv.port)}")
+            for i in range(0, n, args.batch):      # people join a few at a time
+                await asyncio.gather(*(s.open() for s in sessions[i:i + args.batch]))
+            print(f"{n} sessions open (login, page, three figures drawn; {args.batch} at a time) in "
+                  f"{time.perf_counter() - t0:.1f} s; server: {debug_stats(srv.port)}")
             start = [await s.effect() for s in sessions]
             await asyncio.gather(*(s.hook() for s in sessions))
             nets = [2 * i - n for i in range(n)]          # -20, -18, ..., 18: a different end for each
@@ -196,7 +197,7 @@ def main() -> int:
     ap.add_argument("--changes", type=int, default=50)
     ap.add_argument("--sim-rounds", type=int, default=20, help="rounds of changes while simulating (default 20)")
     ap.add_argument("--cycles", type=int, default=200)
-    ap.add_argument("--batch", type=int, default=10)
+    ap.add_argument("--batch", type=int, default=5, help="sessions opened at once (default 5)")
     args = ap.parse_args()
     if args.changes < args.sessions or (args.changes + args.sessions) % 2:
         ap.error("--changes must be at least --sessions and of the same parity (each session's net move differs)")
