@@ -20,7 +20,7 @@ import powercore as pc
 from powercore.justification import BASES, DELTA2_NOTE, OBSERVED_WARNING, check_basis, justification, standardized_only
 
 from .state import ExplorerState
-from .theme import PANE_CSS, PIN_STYLES, WIDGET_CSS, button_look, label_kw
+from .theme import CARD_CSS, PANE_CSS, PIN_STYLES, WIDGET_CSS, button_look, label_kw
 
 if TYPE_CHECKING:   # pragma: no cover
     from .pins import PinBoard
@@ -37,7 +37,6 @@ BASIS_LABELS = {
 }
 assert set(BASIS_LABELS.values()) - {""} == set(BASES)
 
-CARD_CSS = ":host { font-size: 17px; } .card-title { font-size: 18px; font-weight: 700; }"
 WARN_CSS = PANE_CSS + """
 .pl-warn { background: #FDE7E9; border-left: 6px solid #B00020; padding: 6px 12px; margin: 4px 0;
   font-weight: 600; color: #5C0010; }
@@ -174,7 +173,7 @@ class JustificationCard(pn.viewable.Viewer):
         self.card = pn.Card(intro, self.current.layout, *(b.layout for b in self.blocks),
                             title="Sample-size justification", collapsed=False, sizing_mode="stretch_width",
                             css_classes=["pl-justification-card"], margin=(6, 10),
-                            header_css_classes=["pl-justification-header"], stylesheets=[CARD_CSS])
+                            header_css_classes=["card-header", "pl-justification-header"], stylesheets=[CARD_CSS])
         if basis is not None:
             basis.on_change(self.update)
         if pins is not None:

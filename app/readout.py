@@ -8,7 +8,7 @@ import panel as pn
 
 from .state import ExplorerState, Snapshot
 from .text import FIND_LABELS, effect_unit, effect_value, num, value_unit
-from .theme import PANE_CSS
+from .theme import CARD_CSS, PANE_CSS
 
 __all__ = ["Readout", "Working", "readout_rows", "working_rows"]
 
@@ -167,9 +167,8 @@ class Working(pn.viewable.Viewer):
                                  css_classes=["pl-working"])
         self.card = pn.Card(self.pane, title="Working, step by step", collapsed=False,
                             sizing_mode="stretch_width", css_classes=["pl-working-card"], margin=(6, 10),
-                            header_css_classes=["pl-working-header"],
-                            stylesheets=[":host { font-size: 17px; } .card-title { font-size: 18px; "
-                                         "font-weight: 700; }"])
+                            header_css_classes=["card-header", "pl-working-header"],
+                            stylesheets=[CARD_CSS])
 
     def __panel__(self):
         return self.card

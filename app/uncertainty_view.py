@@ -41,7 +41,7 @@ from powercore.uncertainty import (assurance, power_band, sd_interval, sd_params
 
 from .state import ExplorerState, Snapshot
 from .text import effect_unit, num, param_unit, value_unit
-from .theme import FONT, INK, PALETTE, PANE_CSS, WIDGET_CSS, button_look, label_kw, style_figure
+from .theme import CARD_CSS, FONT, INK, PALETTE, PANE_CSS, WIDGET_CSS, button_look, label_kw, style_figure
 
 __all__ = ["TARGET_POWERS", "UncertaintyPanel"]
 
@@ -60,7 +60,6 @@ CONFIDENCE = 0.8
 
 Band = tuple[np.ndarray, np.ndarray, np.ndarray, str]
 
-CARD_CSS = ":host { font-size: 17px; } .card-title { font-size: 18px; font-weight: 700; }"
 # the download button is drawn like the page's other outlined buttons (Panel leaves it grey)
 DOWNLOAD_CSS = (".bk-btn.bk-btn-default { border: 1px solid #0072B2 !important; color: #0072B2 !important; "
                 "background: white !important; } .bk-btn.bk-btn-default:hover { background: #EAF3FA !important; } "
@@ -235,7 +234,7 @@ class UncertaintyPanel(pn.viewable.Viewer):
         self.card = pn.Card(pn.pane.HTML(intro, stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(0, 10)),
                             self._stale_row, self.tabs, title="What if the assumptions are wrong?", collapsed=collapsed,
                             sizing_mode="stretch_width", margin=(6, 10), css_classes=["pl-unc"],
-                            header_css_classes=["pl-unc-header"], stylesheets=[CARD_CSS])
+                            header_css_classes=["card-header", "pl-unc-header"], stylesheets=[CARD_CSS])
         self.card.param.watch(lambda e: self._opened() if not e.new else None, "collapsed")
 
     def __panel__(self):

@@ -359,3 +359,13 @@ def test_switching_design_carries_effect_and_spread_together():
     st.design = "paired-t"
     d = pc.get_design("paired-t")
     assert st.values["delta"] == d.param("delta").default and st.values["sd_diff"] == d.param("sd_diff").default
+
+
+def test_every_card_header_keeps_panels_header_class(app):
+    """A card's header_css_classes replace Panel's "card-header"; without it the arrow sits above the title."""
+    import panel as pn
+    cards = app.__panel__().select(pn.Card)
+    assert len(cards) >= 4     # working, justification, uncertainty, effect helper at least
+    for card in cards:
+        if card.header_css_classes:
+            assert "card-header" in card.header_css_classes, card.title or card.css_classes
