@@ -24,8 +24,10 @@ from powercore import effects
 
 
 def explorer(design: str | None = None) -> Explorer:
+    """A rendered page with the effect helper's card open, as the planner opens it to use it."""
     ex = Explorer()
     render(ex)
+    ex.effect_helper.card.collapsed = False
     if design is not None:
         ex.state.design = design
         ex.refresh()
@@ -387,3 +389,18 @@ def test_use_while_finding_the_effect_switches_to_power():
     press(ex.effect_helper.use)
     assert st.find == "power" and st.values["delta"] == 25.0
     assert st.snapshot.result.power == pytest.approx(expected_power(st), rel=1e-12)
+
+
+def test_closed_card_catches_up_when_opened():
+    """A closed helper card does not follow every change (it cost a page layout per change); opening it
+    shows the current effect."""
+    ex = Explorer()
+    render(ex)
+    h = ex.effect_helper
+    before = h.readout.object
+    ex.state.set_value("delta", 27.0)
+    ex.refresh()
+    assert h.readout.object == before                    # closed: left alone
+    h.card.collapsed = False
+    d = ex.state.standardized()
+    assert f"current d = {num(d, 4)}" in h.readout.object   # open: up to date
