@@ -199,7 +199,8 @@ class JustificationCard(pn.viewable.Viewer):
         else:
             basis = self.basis.value if self.basis is not None else None
             self.current.show('<p class="pl-just-head">Current scenario</p>',
-                              justification(snap.result, version, basis), warn=basis == "observed")
+                              justification(snap.result, version, basis, snap.unit_name),
+                              warn=basis == "observed")
         pins = self.pins.pins if self.pins is not None else []
         by_slot = {p.slot: p for p in pins}
         for slot, block in enumerate(self.blocks):
@@ -212,5 +213,6 @@ class JustificationCard(pn.viewable.Viewer):
                     f'{html.escape(pin.name)}</p>')
             made = self._made.get(slot)
             if made is None or made[0] is not pin.result or made[1] != pin.basis:   # made once per pin
-                made = self._made[slot] = (pin.result, pin.basis, justification(pin.result, version, pin.basis))
+                made = self._made[slot] = (pin.result, pin.basis,
+                                           justification(pin.result, version, pin.basis, pin.unit_name))
             block.show(head, made[2], warn=pin.basis == "observed")

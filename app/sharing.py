@@ -57,10 +57,7 @@ def current_scenario(state: ExplorerState) -> Scenario:
 def record_dict(state: ExplorerState, simulation: Mapping[str, Any] | None = None,
                 pins: Iterable[Pinned] = (), basis: str | None = None) -> dict[str, Any]:
     snap = state.snapshot
-    rec = make_record(snap.scenario, snap.result, basis=basis, pinned=pins)
-    extras = {"unit_name": snap.unit_name} if snap.unit_name else {}
-    if extras:
-        rec["extras"] = extras
+    rec = make_record(snap.scenario, snap.result, basis=basis, pinned=pins, unit_name=snap.unit_name)
     if simulation is not None:
         rec["simulation"] = dict(simulation)
     return rec

@@ -84,19 +84,26 @@ def _g(x: float, digits: int = 4) -> str:
     return f"{x:.{digits}g}"
 
 
-def justification(result: Result, version: str, basis: str | None = None) -> str:
+def justification(result: Result, version: str, basis: str | None = None, unit_name: str = "") -> str:
     """One paragraph, every number taken from ``result``; ``basis`` (a key of BASES) says where the
-    assumed effect comes from."""
+    assumed effect comes from; ``unit_name`` is the planner's word for the data units (e.g. "min"),
+    written after the effect and the spreads instead of "data units"."""
     check_basis(basis)
     d = get_design(result.scenario.design)
     s = result.solved
     p = dict(s.params)
-    spread = [f"{spec.label} of {_g(p[spec.name])}" for spec in d.params
+    unit_name = " ".join(str(unit_name or "").split())[:40]
+
+    def in_units(spec) -> str:
+        return f" {unit_name}" if unit_name and spec.unit == "data units" else ""
+
+    spread = [f"{spec.label} of {_g(p[spec.name])}{in_units(spec)}" for spec in d.params
               if spec.unit == "data units" and spec.name not in (d.effect, "mu0")]
     refs = [f"{spec.label} of {_g(p[spec.name])}" for spec in d.params
             if spec.unit in ("proportion", "correlation") and spec.name != d.effect]
     assumed = spread + refs
-    effect = (f"a {d.effect_label} of {_g(result.effect)} ({d.param(d.effect).unit}), "
+    effect_unit = f" {unit_name}" if in_units(d.param(d.effect)) else f" ({d.param(d.effect).unit})"
+    effect = (f"a {d.effect_label} of {_g(result.effect)}{effect_unit}, "
               f"a standardized effect {d.standardized_name} = {_g(result.standardized_effect)}")
     if assumed:
         effect += ", assuming " + " and ".join(assumed)

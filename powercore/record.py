@@ -88,7 +88,7 @@ def pinned_entry(pin: Pinned | tuple) -> dict[str, Any]:
         "name": pin.name,
         "assumptions": pin.scenario.to_dict(),
         "results": {**{k: body[k] for k in _PINNED_RESULTS}, **_method(result)},
-        "justification": justification(result, _version(), pin.basis),
+        "justification": justification(result, _version(), pin.basis, pin.unit_name),
     }
     if pin.unit_name:
         entry["unit_name"] = pin.unit_name
@@ -99,8 +99,11 @@ def pinned_entry(pin: Pinned | tuple) -> dict[str, Any]:
 
 def make_record(scenario: Scenario, result: Result | None = None, *, curves: bool = True,
                 created: str | None = None, basis: str | None = None,
-                pinned: Iterable[Pinned | tuple] = ()) -> dict[str, Any]:
+                pinned: Iterable[Pinned | tuple] = (), unit_name: str = "") -> dict[str, Any]:
     """The full JSON-ready record of a scenario (evaluated here unless ``result`` is given).
+
+    ``unit_name`` (the planner's word for the data units) goes into the justification and, when
+    given, into ``extras.unit_name``.
 
     ``basis`` (a key of ``justification.BASES``) says where the assumed effect comes from; it goes
     into the record, its cautions and its justification. ``pinned`` lists scenarios to compare
@@ -130,8 +133,10 @@ def make_record(scenario: Scenario, result: Result | None = None, *, curves: boo
         "results": {**body, **_method(result)},
         "working": working,
         "cautions": cautions_for(get_design(scenario.design), basis),
-        "justification": justification(result, _version(), basis),
+        "justification": justification(result, _version(), basis, unit_name),
     }
+    if unit_name:
+        record["extras"] = {"unit_name": unit_name}
     if basis is not None:
         record["basis"] = basis
     if pins:

@@ -243,8 +243,10 @@ def test_justification_card_per_scenario(app):
     a, b = pin_two(app)
     texts = app.justification.texts()
     assert set(texts) == {"current", "A", "B"}
-    assert texts["A"] == justification(pc.evaluate(a), pc.__version__)
-    assert texts["current"] == justification(app.state.snapshot.result, pc.__version__)
+    unit = app.state.snapshot.unit_name      # the demo's "min", written after the effect and the SD
+    assert unit and f"of 20 {unit}" in texts["current"]
+    assert texts["A"] == justification(pc.evaluate(a), pc.__version__, None, unit)
+    assert texts["current"] == justification(app.state.snapshot.result, pc.__version__, None, unit)
     assert app.justification.blocks[1].layout.visible and not app.justification.blocks[2].layout.visible
     assert "Pinned: B" in app.justification.blocks[1].head.object
     app.pins.remove(0)

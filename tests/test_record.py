@@ -283,3 +283,14 @@ def test_pinned_record_stays_under_the_size_limit_and_depth():
     text = json.dumps(make_record(BASE, pinned=pins))
     assert len(text) < MAX_RECORD_BYTES / 4
     assert len(read_pinned(text)) == MAX_PINNED
+
+
+def test_unit_name_goes_into_the_justification_and_extras():
+    """The planner's unit follows the effect and the SD in the paragraph; without one, "(data units)"."""
+    sc = pc.Scenario("two-means-t", {"delta": 20.0, "sd": 45.0}, n=60)
+    rec = make_record(sc, unit_name="min", curves=False)
+    assert rec["extras"] == {"unit_name": "min"}
+    assert "a difference of 20 min" in rec["justification"] and "σ of 45 min" in rec["justification"]
+    plain = make_record(sc, curves=False)
+    assert "extras" not in plain and "a difference of 20 (data units)" in plain["justification"]
+    assert read_record(json.dumps(rec)) == sc
