@@ -10,6 +10,9 @@ from __future__ import annotations
 
 import html
 import math
+import threading
+import time
+from collections import deque
 from typing import Any, Callable
 
 import numpy as np
@@ -25,10 +28,13 @@ from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw
 
 __all__ = ["LIVE_DEBOUNCE_MS", "WATCHED", "NumberControl", "ScenarioControls", "nice_ceil"]
 
-#: How long the server holds a slider's change before acting on it (Panel's default is 50 ms).
-#: Bursts while dragging are already merged by the page, which starts one refresh at a time and
-#: lets the changes that arrive meanwhile share the next one; so the wait only adds latency.
-LIVE_DEBOUNCE_MS = 0
+#: How long the server holds a slider's change before acting on it: Panel's default. 0 cut 40 ms of
+#: latency, but a fast mouse drag then ended, about one time in eight, a step short of where the hand
+#: let go (changes are handled in worker threads that can finish out of order); the wait merges a
+#: burst into one change. _slider_moved also takes the newest value, one change at a time.
+LIVE_DEBOUNCE_MS = 50
+#: a value a slider sent this recently, shown back to it, is its own echo and does not move it
+ECHO_SECONDS = 1.5
 
 
 def nice_ceil(x: float) -> float:
@@ -68,6 +74,8 @@ class NumberControl(pn.viewable.Viewer):
         self._on_change = on_change
         self._syncing = False
         self._last_sent: Any = object()   # the value this control last handed to on_change
+        self._sent: deque = deque(maxlen=16)   # (time, value) it handed on lately: a drag in flight
+        self._move_lock = threading.Lock()
         self._label = pn.pane.HTML("", stylesheets=[PANE_CSS], margin=(6, 10, 0, 10),
                                    css_classes=["pl-label-row"])
         self.set_label(label, unit, doc)
@@ -137,7 +145,10 @@ class NumberControl(pn.viewable.Viewer):
             bv = _box_value(value, self.integer)
             if self.box.value != bv and not _same(self.box.value, bv):
                 self.box.value = bv
-            echo = _same(value, self._last_sent)
+            # the planner's own values of the last moments are echoes: the hand may already be further on
+            now = time.monotonic()
+            echo = _same(value, self._last_sent) or any(
+                _same(value, sent) for t, sent in self._sent if now - t < ECHO_SECONDS)
             if not echo and _is_number(value) and self.hard[0] < value < self.hard[1]:
                 self._fit_slider(value)
                 sv = _cast(min(max(value, self.slider.start), self.slider.end), self.integer)
@@ -199,15 +210,30 @@ class NumberControl(pn.viewable.Viewer):
     def _slider_moved(self, event) -> None:
         if self._syncing:
             return
-        v = event.new
-        if not self.integer:
-            v = round(float(v), _decimals(self.step) + 2)
-        if _same(self.box.value, v, self.step / 2):   # the slider snapped to a typed value
-            return
-        # the box follows when the page next shows the state (one batch with the views)
-        v = int(v) if self.integer else v
-        self._last_sent = v
-        self._on_change(v)
+        with self._move_lock:   # one change at a time, and always the newest (see _latest_slider_value)
+            v = self._latest_slider_value(event.new)
+            if not self.integer:
+                v = round(float(v), _decimals(self.step) + 2)
+            if _same(self.box.value, v, self.step / 2):   # the slider snapped to a typed value
+                return
+            # the box follows when the page next shows the state (one batch with the views)
+            v = int(v) if self.integer else v
+            self._last_sent = v
+            self._sent.append((time.monotonic(), v))
+            self._on_change(v)
+
+    def _latest_slider_value(self, fallback: Any) -> Any:
+        """The value the browser sent last.
+
+        Panel hands each change to a worker thread, and two changes in quick succession can finish
+        in either order, so the older one could win. The slider's Bokeh model is set on the
+        server's event loop in the order the changes arrive, so it holds the newest value.
+        """
+        for model, _ in list(self.slider._models.values()):
+            v = getattr(model, "value", None)
+            if _is_number(v):
+                return v
+        return fallback
 
     def _box_typed(self, event) -> None:
         if self._syncing:
