@@ -133,7 +133,8 @@ def test_copy_puts_the_justification_on_the_clipboard(open_page, server):
     gp.context.grant_permissions(["clipboard-read", "clipboard-write"], origin=server.url.rstrip("/"))
     pin(page)
     expect(page.locator(".pl-just-0")).to_be_visible()
-    want = justification(pc.evaluate(demo()), pc.__version__)
+    from app.state import DEMO
+    want = justification(pc.evaluate(demo()), pc.__version__, None, DEMO["unit_name"])   # the demo's "min"
     page.locator(".pl-just-copy-current button").click()
     expect(page.locator(".pl-just-status-current")).to_have_text("copied")
     assert page.evaluate("() => navigator.clipboard.readText()") == want
