@@ -24,7 +24,7 @@ from powercore.allocation import Allocation, BudgetPlan, best_ratio, budget_plan
 from .effect_helper import STALE, card_heading, primary_button
 from .state import ExplorerState
 from .text import effect_unit, num, value_unit
-from .theme import PANE_CSS, WIDGET_CSS, label_kw
+from .theme import PANE_CSS, WIDGET_CSS, label_kw, show_message
 
 __all__ = ["AllocationPanel", "is_two_group"]
 
@@ -55,11 +55,7 @@ class _Box:
         return self.input.value
 
     def set_message(self, text: str | None) -> None:
-        html_text = f'<p class="pl-msg" role="alert">{html.escape(text)}</p>' if text else ""
-        if self.message.object != html_text:
-            self.message.object = html_text
-        if self.message.visible != bool(text):
-            self.message.visible = bool(text)
+        show_message(self.message, text)
 
 
 def _positive(box: _Box) -> float:

@@ -24,7 +24,7 @@ from powercore.spec import ParamSpec
 
 from .state import ExplorerState, directions
 from .text import DIRECTION_LABELS, FIND_LABELS, MULTIPLICITY_LABELS, effect_unit, effect_value, num, param_unit, value_unit
-from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw
+from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw, show_message
 
 __all__ = ["LIVE_DEBOUNCE_MS", "WATCHED", "NumberControl", "ScenarioControls", "nice_ceil"]
 
@@ -115,11 +115,7 @@ class NumberControl(pn.viewable.Viewer):
         self._label.object = f'<p class="pl-label"{title}>{html.escape(label)}{unit_html}</p>'
 
     def set_message(self, message: str | None) -> None:
-        text = f'<p class="pl-msg" role="alert">{html.escape(message)}</p>' if message else ""
-        if self._message.object != text:
-            self._message.object = text
-        if self._message.visible != bool(message):
-            self._message.visible = bool(message)
+        show_message(self._message, message)
 
     def set_found(self, text: str | None) -> None:
         """Show ``text`` as the found result in place of the inputs (None: editable again)."""

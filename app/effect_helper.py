@@ -28,7 +28,7 @@ from powercore.standard import PerProportion, PerRmsSD, PerSD
 
 from .state import ExplorerState
 from .text import effect_unit, num, value_unit
-from .theme import PANE_CSS, WIDGET_CSS, label_kw
+from .theme import PANE_CSS, WIDGET_CSS, label_kw, show_message
 
 __all__ = ["EffectHelper", "HelperInputError", "card_heading", "converter_for", "primary_button"]
 
@@ -439,11 +439,7 @@ class _Field:
         return self.input.value
 
     def set_message(self, text: str | None) -> None:
-        html_text = f'<p class="pl-msg" role="alert">{html.escape(text)}</p>' if text else ""
-        if self.message.object != html_text:
-            self.message.object = html_text
-        if self.message.visible != bool(text):
-            self.message.visible = bool(text)
+        show_message(self.message, text)
 
 
 class EffectHelper(pn.viewable.Viewer):

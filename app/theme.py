@@ -151,3 +151,17 @@ def label_kw(text: str) -> dict:
 #: keep "card-header" in them: without it Panel's header is no longer a row and the open/close arrow
 #: sits on a line of its own above the title.
 CARD_CSS = ":host { font-size: 17px; } .card-title { font-size: 18px; font-weight: 700; }"
+
+
+def show_message(pane, text: str | None) -> None:
+    """Show ``text`` as a field's message in its HTML ``pane`` (hidden when None or empty).
+
+    Only what changed is set, so a message that stays the same sends nothing to the browser.
+    """
+    import html
+
+    obj = f'<p class="pl-msg" role="alert">{html.escape(text)}</p>' if text else ""
+    if pane.object != obj:
+        pane.object = obj
+    if pane.visible != bool(text):
+        pane.visible = bool(text)

@@ -41,7 +41,7 @@ from powercore.uncertainty import (assurance, power_band, sd_interval, sd_params
 
 from .state import ExplorerState, Snapshot
 from .text import effect_unit, num, param_unit, value_unit
-from .theme import CARD_CSS, FONT, INK, PALETTE, PANE_CSS, WIDGET_CSS, button_look, label_kw, style_figure
+from .theme import CARD_CSS, FONT, INK, PALETTE, PANE_CSS, WIDGET_CSS, button_look, label_kw, show_message, style_figure
 
 __all__ = ["TARGET_POWERS", "UncertaintyPanel"]
 
@@ -122,11 +122,7 @@ class _Field(pn.viewable.Viewer):
         return self.box.value
 
     def set_message(self, text: str | None) -> None:
-        obj = f'<p class="pl-msg" role="alert">{_e(text)}</p>' if text else ""
-        if self.msg.object != obj:
-            self.msg.object = obj
-        if self.msg.visible != bool(text):
-            self.msg.visible = bool(text)
+        show_message(self.msg, text)
 
     def set_label(self, label: str) -> None:
         key = "label" if "label" in self.box.param else "name"
