@@ -111,6 +111,15 @@ class Design:
 
     custom_power = None  # a design whose rejection region is not a tail sets this to a method
 
+    def smallest_level(self, p: dict, sizes: tuple, direction: str):
+        """The smallest significance level the real test can reach at these sizes, or ``None``.
+
+        A design approximating a discrete test whose smallest p-value can exceed α at small sizes
+        (the rank tests) returns it here; power is 0 wherever α is below it, since that test can
+        never reject there, whatever the approximation says.
+        """
+        return None
+
     def power_ceiling(self, p: dict, alpha: float, direction: str) -> tuple[float, str] | None:
         """The highest power any n can give, with the reason, for designs where it is below 1."""
         return None

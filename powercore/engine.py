@@ -42,6 +42,12 @@ def _tails(st, lo, hi):
     return np.asarray(lower, dtype=float), np.asarray(upper, dtype=float)
 
 
+def _reachable(design: Design, p: dict, sizes, alpha, direction: str):
+    """Where the real test can reject at level ``alpha`` (True, or a boolean array; see ``smallest_level``)."""
+    level = design.smallest_level(p, sizes, direction)
+    return True if level is None else np.asarray(level) <= np.asarray(alpha) * (1 + 1e-12)
+
+
 def power_at(design: Design, p: dict, n, alpha, direction: str, integer: bool = True) -> np.ndarray:
     """Power, vectorised over any of ``p``'s values, ``n`` and ``alpha`` (they broadcast)."""
     sizes = design.group_sizes(p, n, integer)
@@ -50,7 +56,8 @@ def power_at(design: Design, p: dict, n, alpha, direction: str, integer: bool = 
     st = design.statistic(p, sizes)
     lo, hi = critical_values(st, alpha, direction)
     lower, upper = _tails(st, lo, hi)
-    return np.maximum(np.minimum(lower + upper, 1.0), 0.0)
+    pw = np.maximum(np.minimum(lower + upper, 1.0), 0.0)
+    return np.where(_reachable(design, p, sizes, alpha, direction), pw, 0.0)
 
 
 def power(scenario: Scenario) -> float:
@@ -198,6 +205,11 @@ def detectable_effect(design: Design, p: dict, n: int, alpha: float, direction: 
     scale = design.effect_scale(p)
     probe = 1e-3 * scale   # noncentrality is close to linear in a small effect
     sizes = design.group_sizes(p, n, integer=True)
+    if not np.all(_reachable(design, p, sizes, alpha, direction)):
+        level = float(design.smallest_level(p, sizes, direction))
+        raise NoSolution("effect", f"with n = {n} {design.n.unit} the exact "
+                         f"test's smallest p-value is {fmt(level, 4)}, above α = {fmt(alpha)}, so it can "
+                         "never reject; add units", n)
     a = alpha / 2 if direction == "two-sided" else alpha
     for side, e0, sign, bound in design.effect_sides(p, direction):
         nc0 = float(np.asarray(design.statistic({**p, design.effect: e0}, sizes).noncentrality))
@@ -284,7 +296,8 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
     st = d.statistic(p, sizes)
     lo, hi = critical_values(st, alpha, direction)
     lower, upper = _tails(st, lo, hi)
-    pw = float(np.clip(lower + upper, 0, 1))
+    reachable = bool(np.all(_reachable(d, p, sizes, alpha, direction)))
+    pw = float(np.clip(lower + upper, 0, 1)) if reachable else 0.0
     size = float(power_at(d, {**p, d.effect: d.effect_sides(p, direction)[0][1]}, n, alpha, direction))
     ex = d.explain(p, sizes, st)
     s = d.statistic_symbol
@@ -334,10 +347,19 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
              data_hi if data_hi is not None else data_lo),
         Step("noncentrality", ex.noncentrality, float(st.noncentrality)),
         Step("alternative distribution", ex.alt),
-        Step("power", "; ".join(prob_parts) + (f"; power = sum = {fmt(pw, 6)}" if len(prob_parts) > 1 else ""),
-             pw),
+        Step("power", "; ".join(prob_parts) + (
+            "; but the exact test cannot reject at these sizes (smallest reachable level below): power = 0"
+            if not reachable else f"; power = sum = {fmt(pw, 6)}" if len(prob_parts) > 1 else ""), pw),
     ]
     working += [Step(label, text) for label, text in ex.extra]
+    level = d.smallest_level(p, sizes, direction)
+    if level is not None:
+        level = float(level)
+        working.append(Step("smallest reachable level", (
+            f"with these sizes the exact test's smallest p-value is {fmt(level, 4)}, "
+            + (f"not above α = {fmt(alpha)}" if reachable else
+               f"above α = {fmt(alpha)}: it can never reject, so power is 0 whatever the approximation gives")),
+            level))
     if d.conservative_at(p):
         working.append(Step("actual size", f"P(reject H0 | H0) = {fmt(size, 6)} ≤ α", size))
     adj = scenario.adjustments

@@ -4,6 +4,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from scipy.special import gammaln
 
 from .design import RATIO, TWO_GROUP_N, Design, Explanation, Statistic, TwoGroups, fmt, register
 from .distributions import StudentT
@@ -66,8 +67,10 @@ COMMON_NOTES = ("Approximation by efficiency: power is that of the t test with n
                 "of n (Lehmann 1975). Choose the parent distribution you expect (it sets the ARE), or "
                 "other to type the ARE; are_of(name) gives the standard values.",
                 "The rank tests are discrete: with very small groups some levels cannot be reached at all "
-                "(the signed-rank test with 5 pairs cannot reject two-sided at α = 0.05), which the "
-                "approximation does not see.",
+                "(the signed-rank test with 5 pairs cannot reject two-sided at α = 0.05: its smallest "
+                "p-value is 2/2^5 = 0.0625). Power is set to 0 wherever α is below the smallest p-value "
+                "the exact test can give, so the sample size found is never one at which the test "
+                "cannot reject.",
                 "The critical value in data units is a shift on the t test's scale, with the planned SD.")
 
 
@@ -119,6 +122,12 @@ class WilcoxonMannWhitney(TwoGroups, _Rank):
         df = a * (n1 + n2) - 2
         return Statistic(StudentT(df), StudentT(df, nc), se, nc, lambda t: t * se)
 
+    def smallest_level(self, p, sizes, direction):
+        # the most extreme of the C(n1 + n2, n1) equally likely rankings under H0 (no ties)
+        n1, n2 = (np.asarray(x, dtype=float) for x in sizes)
+        one_tail = np.exp(gammaln(n1 + 1) + gammaln(n2 + 1) - gammaln(n1 + n2 + 1))
+        return np.minimum(2 * one_tail, 1.0) if direction == "two-sided" else one_tail
+
     def explain(self, p, sizes, st):
         n1, n2 = sizes
         a = efficiency(p)
@@ -165,6 +174,11 @@ class SignedRank(_Rank):
         nc = p["delta"] / se
         df = a * n - 1
         return Statistic(StudentT(df), StudentT(df, nc), se, nc, lambda t: t * se)
+
+    def smallest_level(self, p, sizes, direction):
+        # all n signs alike: 1 of the 2^n equally likely sign patterns under H0 (no zeros, no ties)
+        one_tail = np.exp2(-np.asarray(sizes[0], dtype=float))
+        return np.minimum(2 * one_tail, 1.0) if direction == "two-sided" else one_tail
 
     def explain(self, p, sizes, st):
         n = sizes[0]

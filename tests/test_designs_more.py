@@ -437,3 +437,38 @@ def test_signed_rank_simulation_normal_and_laplace():
     sim = float(np.mean(stats.wilcoxon(_draw("laplace", rng, (reps, 20), 1.0) + 0.5, axis=1).pvalue < 0.05))
     an = power("wilcoxon-signed-rank", {"delta": 0.5, "sd_diff": 1.0, "are": ARE["laplace"]}, 20)
     assert abs((an - sim) - 0.088) <= mc_tol(an, reps)
+
+
+@pytest.mark.parametrize("design, params, direction, level, n_found", [
+    # smallest exact p-values by counting (common practice, no source): signed rank 2/2^n two-sided,
+    # 1/2^n one-sided; rank sum 2/C(n1 + n2, n1) two-sided. Large effects, so only the level limits n.
+    ("wilcoxon-signed-rank", {"delta": 30.0, "sd_diff": 10.0, "parent": "normal"}, "two-sided", 2 / 2**6, 6),
+    ("wilcoxon-signed-rank", {"delta": 30.0, "sd_diff": 10.0, "parent": "normal"}, "upper", 1 / 2**5, 5),
+    ("wilcoxon-mann-whitney", {"delta": 40.0, "sd": 10.0, "parent": "normal", "ratio": 1.0}, "two-sided",
+     2 / math.comb(8, 4), 4),
+    ("wilcoxon-mann-whitney", {"delta": 40.0, "sd": 10.0, "parent": "normal", "ratio": 1.0}, "upper",
+     1 / math.comb(6, 3), 3),
+])
+def test_rank_sample_size_is_never_one_where_the_exact_test_cannot_reject(design, params, direction, level,
+                                                                         n_found):
+    """For a huge shift the rank designs' n is the first at which the exact test's smallest p-value is at most α;
+    one unit fewer has power 0 and the working says why."""
+    r = pc.evaluate(pc.Scenario(design, params, find="n", direction=direction, target_power=0.8))
+    assert r.n == n_found
+    assert r.sample_size.power_below == 0.0
+    step = {s.label: s for s in r.working}["smallest reachable level"]
+    assert step.value == pytest.approx(level, rel=1e-12)
+    below = pc.evaluate(pc.Scenario(design, params, n=n_found - 1, direction=direction))
+    assert below.power == 0.0
+    assert "can never reject" in {s.label: s for s in below.working}["smallest reachable level"].text
+
+
+def test_rank_tests_really_cannot_reject_below_the_smallest_level():
+    """scipy's exact tests reject none of 2,000 huge-shift samples at 5 pairs or 3 per group (seeded simulation)."""
+    rng = np.random.default_rng(SEED + 10)
+    x = rng.normal(30.0, 1.0, (2000, 5))
+    assert np.all(stats.wilcoxon(x, axis=1).pvalue >= 0.0625 - 1e-12)
+    a, b = rng.normal(0.0, 1.0, (2000, 3)), rng.normal(40.0, 1.0, (2000, 3))
+    assert np.all(stats.mannwhitneyu(b, a, axis=1).pvalue >= 0.1 - 1e-12)
+    assert power("wilcoxon-signed-rank", {"delta": 30.0, "sd_diff": 1.0, "parent": "normal"}, 5) == 0.0
+    assert power("wilcoxon-mann-whitney", {"delta": 40.0, "sd": 1.0, "parent": "normal"}, 3) == 0.0

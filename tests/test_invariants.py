@@ -96,13 +96,17 @@ def test_power_is_a_probability(design):
 
 @by_design
 def test_power_at_the_null_effect_is_alpha(design):
-    """At the null value of the effect power equals α, or is at most α where the design is conservative."""
+    """At the null value of the effect power equals α, or is at most α where the design is conservative,
+    or is 0 where the real test cannot reach α at all (a rank test with too few units)."""
     def body(data, b):
         p, n, alpha, direction = data.draw(inputs(design))
         for name, e0, _, _ in sides(design, p, direction):
             q = {**p, design.effect: e0}
             size = float(pw(design, q, n, alpha, direction))
-            if design.conservative_at(q):
+            level = design.smallest_level(q, design.group_sizes(q, n), direction)
+            if level is not None and float(level) > alpha:
+                assert size == 0.0, (name, size, float(level))
+            elif design.conservative_at(q):
                 assert size <= alpha + 1e-12, (name, size)
             else:
                 assert size == pytest.approx(alpha, rel=1e-9, abs=1e-13), (name, size)
@@ -207,8 +211,13 @@ def test_solved_n_reaches_target_and_one_less_does_not(design):
                 assert n == n_min and float(pw(design, p, n_min, alpha, direction)) >= target
             else:
                 at_root = float(pc.power_at(design, p, ss.n_continuous, alpha, direction, integer=False))
-                assert at_root == pytest.approx(target, abs=1e-5), \
-                    f"power {at_root:.6g} at n_continuous = {ss.n_continuous:g}"
+                def at(k):
+                    return float(pc.power_at(design, p, ss.n_continuous * k, alpha, direction, integer=False))
+                if at(1 - 1e-2) == 0.0:   # the root is, within the solver's tolerance, the step where
+                    assert at(1 + 1e-2) >= target - 1e-5   # the real test first reaches α (smallest_level)
+                else:
+                    assert at_root == pytest.approx(target, abs=1e-5), \
+                        f"power {at_root:.6g} at n_continuous = {ss.n_continuous:g}"
     run(design, body, heavy=True)
 
 
@@ -298,6 +307,8 @@ def test_solved_alpha_gives_target_power(design):
                 assert float(pw(design, p, n, a * (1 - 1e-6), direction)) < target
         elif a <= 1e-11:  # at the bottom of the α range (1e-12) the target may already be exceeded
             assert got >= target - SOLVE_TOL
+        elif float(pw(design, p, n, a * (1 - 1e-6), direction)) == 0.0:
+            assert got >= target - SOLVE_TOL   # α is where the real test can first reject (smallest_level)
         else:
             assert got == pytest.approx(target, abs=SOLVE_TOL)
     run(design, body)
