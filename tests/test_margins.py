@@ -115,3 +115,24 @@ def test_tost_sample_size_is_near_the_normal_formula():
     z = stats.norm.isf(0.05) + stats.norm.isf(0.1)
     approx = 2 * 100 * z ** 2 / 25
     assert approx <= r.n <= approx + 4
+
+
+@pytest.mark.parametrize("n, delta, alpha", [(3, 0.0, 0.05), (15, 2.0, 0.05), (30, 0.0, 0.05), (50, 4.5, 0.001),
+                                             (100, 0.0, 0.001), (400, 2.0, 0.001), (5000, 4.5, 0.05)])
+def test_tost_matches_adaptive_quadrature(n, delta, alpha):
+    """Exact TOST power (margin 5, SD 10, n per group) equals scipy's adaptive quad of the same integral to 1e-9."""
+    from scipy import integrate, special
+    sd_d, df = 10.0 * np.sqrt(2 / n), 2 * n - 2
+    t = stats.t.isf(alpha, df)
+    x_max = df * (5.0 / t / sd_d) ** 2
+
+    def integrand(x):   # χ²(df) density × P(both one-sided tests reject | S = sd_d·√(x/df))
+        s = sd_d * np.sqrt(x / df)
+        return stats.chi2.pdf(x, df) * max(0.0, special.ndtr((5.0 - t * s - delta) / sd_d)
+                                           - special.ndtr((-5.0 + t * s - delta) / sd_d))
+
+    lo, hi = stats.chi2.ppf(1e-25, df), min(stats.chi2.isf(1e-25, df), x_max)
+    edges = np.linspace(lo, hi, 41) if hi > lo else []
+    ref = sum(integrate.quad(integrand, a, b, epsabs=1e-15, epsrel=1e-12)[0] for a, b in zip(edges[:-1], edges[1:]))
+    # reference: direct scipy computation (integrate.quad on 40 panels over the χ² bulk)
+    assert float(tost_power(delta, 5.0, sd_d, df, alpha)) == pytest.approx(ref, abs=1e-9)
