@@ -42,6 +42,9 @@ def validate(adj: Any) -> dict[str, Any]:
         m = int(m)
     if isinstance(m, bool) or not isinstance(m, int) or not 1 <= m <= MAX_COMPARISONS:
         raise InvalidParameter("adjustments.comparisons", f"must be a whole number in [1, {MAX_COMPARISONS}]", m)
+    if m > 1 and "multiplicity" not in adj:   # never a silent choice between α per test and familywise α
+        raise InvalidParameter("adjustments.multiplicity", f"must be given with {m} comparisons: one of "
+                               f"{list(MULTIPLICITY)} (none runs each test at the full α)", None)
     if out["multiplicity"] not in MULTIPLICITY:
         raise InvalidParameter("adjustments.multiplicity", f"must be one of {list(MULTIPLICITY)}",
                                out["multiplicity"])

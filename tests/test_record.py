@@ -115,6 +115,7 @@ def test_dropout_enrols_each_group_rounded_up():
     ({"dropout": -0.1}, "adjustments.dropout"),
     ({"comparisons": 0}, "adjustments.comparisons"),
     ({"comparisons": 2.5}, "adjustments.comparisons"),
+    ({"comparisons": 3}, "adjustments.multiplicity"),     # several tests, but no word on how α is split
     ({"multiplicity": "holm-ish"}, "adjustments.multiplicity"),
     ({"attrition": 0.1}, "adjustments.attrition"),
 ])
