@@ -22,7 +22,7 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))          # tests/ (browser_support)
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))          # repository root
 
-from playwright.sync_api import sync_playwright  # noqa: E402
+from playwright.sync_api import expect, sync_playwright  # noqa: E402
 
 import powercore as pc  # noqa: E402
 from browser_support import (CHROMIUM, CHROMIUM_ARGS, DONE_JS, ELAPSED_JS, HOOK_JS, GuardedPage,  # noqa: E402
@@ -50,7 +50,10 @@ def latency(page, design_id: str, changes: int) -> list[float]:
     d = pc.get_design(design_id)
     if page.locator(".pl-design select").input_value() != d.title:
         page.locator(".pl-design select").select_option(label=d.title)
-        page.wait_for_timeout(800)
+        # settled: the effect control carries the new design's label, then a pause for the last redraws
+        expect(page.locator(".pl-control-effect .pl-label")).to_contain_text(d.param(d.effect).label,
+                                                                             timeout=20000)
+        page.wait_for_timeout(1500)
     page.evaluate(HOOK_JS)
     handle = page.locator(".pl-slider-effect .noUi-handle")
     handle.focus()
