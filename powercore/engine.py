@@ -42,10 +42,14 @@ def _tails(st, lo, hi):
     return np.asarray(lower, dtype=float), np.asarray(upper, dtype=float)
 
 
+def _within(level, alpha):
+    """Where a test whose smallest reachable level is ``level`` can reject at ``alpha`` (None: anywhere)."""
+    return True if level is None else np.asarray(level) <= np.asarray(alpha) * (1 + 1e-12)
+
+
 def _reachable(design: Design, p: dict, sizes, alpha, direction: str):
     """Where the real test can reject at level ``alpha`` (True, or a boolean array; see ``smallest_level``)."""
-    level = design.smallest_level(p, sizes, direction)
-    return True if level is None else np.asarray(level) <= np.asarray(alpha) * (1 + 1e-12)
+    return _within(design.smallest_level(p, sizes, direction), alpha)
 
 
 def power_at(design: Design, p: dict, n, alpha, direction: str, integer: bool = True) -> np.ndarray:
@@ -205,11 +209,10 @@ def detectable_effect(design: Design, p: dict, n: int, alpha: float, direction: 
     scale = design.effect_scale(p)
     probe = 1e-3 * scale   # noncentrality is close to linear in a small effect
     sizes = design.group_sizes(p, n, integer=True)
-    if not np.all(_reachable(design, p, sizes, alpha, direction)):
-        level = float(design.smallest_level(p, sizes, direction))
-        raise NoSolution("effect", f"with n = {n} {design.n.unit} the exact "
-                         f"test's smallest p-value is {fmt(level, 4)}, above α = {fmt(alpha)}, so it can "
-                         "never reject; add units", n)
+    level = design.smallest_level(p, sizes, direction)
+    if not np.all(_within(level, alpha)):
+        raise NoSolution("effect", f"with n = {n} {design.n.unit} the exact test's smallest p-value is "
+                         f"{fmt(float(level), 4)}, above α = {fmt(alpha)}, so it can never reject; add units", n)
     a = alpha / 2 if direction == "two-sided" else alpha
     for side, e0, sign, bound in design.effect_sides(p, direction):
         nc0 = float(np.asarray(design.statistic({**p, design.effect: e0}, sizes).noncentrality))
@@ -296,7 +299,8 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
     st = d.statistic(p, sizes)
     lo, hi = critical_values(st, alpha, direction)
     lower, upper = _tails(st, lo, hi)
-    reachable = bool(np.all(_reachable(d, p, sizes, alpha, direction)))
+    level = d.smallest_level(p, sizes, direction)
+    reachable = bool(np.all(_within(level, alpha)))
     pw = float(np.clip(lower + upper, 0, 1)) if reachable else 0.0
     size = float(power_at(d, {**p, d.effect: d.effect_sides(p, direction)[0][1]}, n, alpha, direction))
     ex = d.explain(p, sizes, st)
@@ -352,14 +356,12 @@ def _describe(d, scenario, solved, p, n, alpha, direction, ss, detectable, messa
             if not reachable else f"; power = sum = {fmt(pw, 6)}" if len(prob_parts) > 1 else ""), pw),
     ]
     working += [Step(label, text) for label, text in ex.extra]
-    level = d.smallest_level(p, sizes, direction)
     if level is not None:
-        level = float(level)
         working.append(Step("smallest reachable level", (
-            f"with these sizes the exact test's smallest p-value is {fmt(level, 4)}, "
+            f"with these sizes the exact test's smallest p-value is {fmt(float(level), 4)}, "
             + (f"not above α = {fmt(alpha)}" if reachable else
                f"above α = {fmt(alpha)}: it can never reject, so power is 0 whatever the approximation gives")),
-            level))
+            float(level)))
     if d.conservative_at(p):
         working.append(Step("actual size", f"P(reject H0 | H0) = {fmt(size, 6)} ≤ α", size))
     adj = scenario.adjustments

@@ -74,6 +74,11 @@ COMMON_NOTES = ("Approximation by efficiency: power is that of the t test with n
                 "The critical value in data units is a shift on the t test's scale, with the planned SD.")
 
 
+def _both_tails(one_tail, direction):
+    """The smallest reachable level from the smallest one-tailed p-value (doubled when two-sided)."""
+    return np.minimum(2 * one_tail, 1.0) if direction == "two-sided" else one_tail
+
+
 class _Rank(PerSD, Design):
     family = "rank tests"
     statistic_symbol = "t"
@@ -125,8 +130,7 @@ class WilcoxonMannWhitney(TwoGroups, _Rank):
     def smallest_level(self, p, sizes, direction):
         # the most extreme of the C(n1 + n2, n1) equally likely rankings under H0 (no ties)
         n1, n2 = (np.asarray(x, dtype=float) for x in sizes)
-        one_tail = np.exp(gammaln(n1 + 1) + gammaln(n2 + 1) - gammaln(n1 + n2 + 1))
-        return np.minimum(2 * one_tail, 1.0) if direction == "two-sided" else one_tail
+        return _both_tails(np.exp(gammaln(n1 + 1) + gammaln(n2 + 1) - gammaln(n1 + n2 + 1)), direction)
 
     def explain(self, p, sizes, st):
         n1, n2 = sizes
@@ -177,8 +181,7 @@ class SignedRank(_Rank):
 
     def smallest_level(self, p, sizes, direction):
         # all n signs alike: 1 of the 2^n equally likely sign patterns under H0 (no zeros, no ties)
-        one_tail = np.exp2(-np.asarray(sizes[0], dtype=float))
-        return np.minimum(2 * one_tail, 1.0) if direction == "two-sided" else one_tail
+        return _both_tails(np.exp2(-np.asarray(sizes[0], dtype=float)), direction)
 
     def explain(self, p, sizes, st):
         n = sizes[0]

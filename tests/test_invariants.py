@@ -210,9 +210,9 @@ def test_solved_n_reaches_target_and_one_less_does_not(design):
             if ss.n_continuous is None:
                 assert n == n_min and float(pw(design, p, n_min, alpha, direction)) >= target
             else:
-                at_root = float(pc.power_at(design, p, ss.n_continuous, alpha, direction, integer=False))
                 def at(k):
                     return float(pc.power_at(design, p, ss.n_continuous * k, alpha, direction, integer=False))
+                at_root = at(1.0)
                 if at(1 - 1e-2) == 0.0:   # the root is, within the solver's tolerance, the step where
                     assert at(1 + 1e-2) >= target - 1e-5   # the real test first reaches α (smallest_level)
                 else:
