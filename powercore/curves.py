@@ -8,7 +8,7 @@ import numpy as np
 
 from . import adjust
 from .design import get_design
-from .engine import critical_values, power_at
+from .engine import _reachable, critical_values, power_at
 from .result import Result
 from .scenario import Scenario
 
@@ -101,6 +101,8 @@ def densities(scenario: Scenario, scale: str = "statistic", points: int = 400) -
     if d.custom_power is not None:
         rejects = "inside"
         lo, hi = (float(v) for v in d.inside_region(p, sizes, alpha)[:2])
+    elif not np.all(_reachable(d, p, sizes, alpha, scenario.direction)):
+        lo = hi = math.nan   # the real test cannot reject at these sizes: no rejection region to draw
     else:
         lo, hi = (float(v) for v in critical_values(st, alpha, scenario.direction))
     a0, b0 = st.null.span()

@@ -461,6 +461,8 @@ def test_rank_sample_size_is_never_one_where_the_exact_test_cannot_reject(design
     below = pc.evaluate(pc.Scenario(design, params, n=n_found - 1, direction=direction))
     assert below.power == 0.0
     assert "can never reject" in {s.label: s for s in below.working}["smallest reachable level"].text
+    assert all(math.isnan(c) for c in pc.densities(below.solved).critical)   # no rejection region drawn
+    assert not any(math.isnan(c) for c in pc.densities(r.solved).critical if direction == "two-sided")
 
 
 def test_rank_tests_really_cannot_reject_below_the_smallest_level():
