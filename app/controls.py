@@ -28,13 +28,34 @@ from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw, show
 
 __all__ = ["LIVE_DEBOUNCE_MS", "WATCHED", "NumberControl", "ScenarioControls", "nice_ceil"]
 
-#: How long the server holds a slider's change before acting on it: Panel's default. 0 cut 40 ms of
-#: latency, but a fast mouse drag then ended, about one time in eight, a step short of where the hand
-#: let go (changes are handled in worker threads that can finish out of order); the wait merges a
-#: burst into one change. _slider_moved also takes the newest value, one change at a time.
-LIVE_DEBOUNCE_MS = 50
+#: How long the server holds a slider's change before acting on it (Panel's default is 50 ms). None:
+#: the page merges changes that arrive while a refresh is pending, and _slider_moved takes the newest
+#: value, one change at a time, so a fast drag still ends where the hand let go
+#: (test_mouse_drag_ends_on_the_released_value).
+LIVE_DEBOUNCE_MS = 0
 #: a value a slider sent this recently, shown back to it, is its own echo and does not move it
 ECHO_SECONDS = 1.5
+
+
+class _LiveOnly:
+    """A slider that listens to ``value`` only.
+
+    Bokeh's slider also reports ``value_throttled`` (at each key press, and when a drag ends); the
+    page never reads it, and handling it cost a second trip through Panel's worker threads at each
+    change, in the same moments as the change itself.
+    """
+
+    @property
+    def _linked_properties(self) -> tuple[str, ...]:
+        return tuple(p for p in super()._linked_properties if p != "value_throttled")
+
+
+class _FloatSlider(_LiveOnly, pn.widgets.FloatSlider):
+    pass
+
+
+class _IntSlider(_LiveOnly, pn.widgets.IntSlider):
+    pass
 
 
 def nice_ceil(x: float) -> float:
@@ -82,7 +103,7 @@ class NumberControl(pn.viewable.Viewer):
         lo, hi = self._within_hard(*soft)
         start_value = value if _is_number(value) else lo
         lo, hi = self._range_for(start_value, lo, hi, headroom=True)
-        slider_cls = pn.widgets.IntSlider if integer else pn.widgets.FloatSlider
+        slider_cls = _IntSlider if integer else _FloatSlider
         kwargs = {} if integer else {"format": f"0[.]{'0' * max(_decimals(step), 1)}"}
         self.slider = slider_cls(start=_cast(lo, integer), end=_cast(hi, integer),
                                  step=_cast(step, integer) or 1,

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import html
 import threading
+import time
 
 import panel as pn
 
@@ -21,7 +22,10 @@ from . import speedups
 from .theme import PANE_CSS, WIDGET_CSS, button_look
 from .uncertainty_view import UncertaintyPanel
 
-__all__ = ["CAUTIONS", "Explorer", "create_app"]
+__all__ = ["CAUTIONS", "SETTLE_MS", "Explorer", "create_app"]
+
+#: how long after the last change the page refreshes its details (see ``Explorer.refresh``)
+SETTLE_MS = 250
 
 CAUTIONS = (
     "A study plan that affects people needs a qualified statistician; local regulations and ethics "
@@ -41,6 +45,8 @@ class Explorer(pn.viewable.Viewer):
         self._lock = threading.Lock()
         self._pending = False
         self._need_figures = False
+        self._details_due = 0.0
+        self._details_waiting = False
         self.controls = ScenarioControls(st, watch=False)
         self.effect_helper = EffectHelper(st)
         self.allocation = AllocationPanel(st)
@@ -110,35 +116,68 @@ class Explorer(pn.viewable.Viewer):
             if self._pending:
                 return
             self._pending = True
-        pn.state.execute(self._run_refresh, schedule="auto")
+        pn.state.execute(self._run_refresh, schedule=True)
 
     def _run_refresh(self) -> None:
         with self._lock:
             figures, self._need_figures, self._pending = self._need_figures, False, False
-        self.refresh(figures=figures)
+        doc = pn.state.curdoc
+        if doc is None or doc.session_context is None:    # not served (tests): all at once
+            self.refresh(figures=figures)
+            return
+        self.refresh(figures=figures, details=False)
+        self._details_due = time.monotonic() + SETTLE_MS / 1000
+        if not self._details_waiting:
+            self._details_waiting = True
+            doc.add_timeout_callback(self._details_when_settled, SETTLE_MS)
 
-    def refresh(self, figures: bool = True) -> None:
-        """Bring the controls and views in line with the state, as one batch of changes."""
+    def _details_when_settled(self) -> None:
+        """Refresh the details once no change has come for ``SETTLE_MS`` (a drag has paused)."""
+        wait = self._details_due - time.monotonic()
+        doc = pn.state.curdoc
+        if wait > 0.002 and doc is not None:
+            doc.add_timeout_callback(self._details_when_settled, int(wait * 1000) + 1)
+            return
+        self._details_waiting = False
+        with pn.io.hold():
+            self._refresh_details()
+
+    def refresh(self, figures: bool = True, details: bool = True) -> None:
+        """Bring the controls and views in line with the state, as one batch of changes.
+
+        The controls, the three views and the readout follow every change. The ``details`` (the
+        captions under the figures, the working, justification, share link, pins, helpers and
+        uncertainty card) are heavier to send and to redraw: while a slider is dragged the page
+        refreshes them only once the hand has rested for ``SETTLE_MS``.
+        """
         st = self.state
         with pn.io.hold():
             self.controls.refresh()
-            self.effect_helper.update()
-            self.allocation.update()
             snap = st.snapshot
             if figures and snap is not None:
                 for view in (self.densities, self.effect_curve, self.n_curve):
                     view.update(snap)
-                self.working.update()
                 self.n_curve.set_simulated(self.sim.points_for(snap.result.solved))
             self.readout.update()
-            self.basis.update()
-            self.pins.update()
-            self.justification.update()
-            self.sim.refresh()
-            self.share.update()
-            self.uncertainty.update()
             if self.scale.value != st.scale:
                 self.scale.value = st.scale
+            if details:
+                self._refresh_details()
+
+    def _refresh_details(self) -> None:
+        snap = self.state.snapshot
+        self.effect_helper.update()
+        self.allocation.update()
+        if snap is not None:
+            for view in (self.densities, self.effect_curve, self.n_curve):
+                view.set_caption(snap)
+            self.working.update()
+        self.basis.update()
+        self.pins.update()
+        self.justification.update()
+        self.sim.refresh()
+        self.share.update()
+        self.uncertainty.update()
 
     def _build_layout(self):
         header = pn.pane.HTML(

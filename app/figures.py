@@ -192,6 +192,10 @@ class _FigureView(pn.viewable.Viewer):
     def __panel__(self):
         return self._pane
 
+    def set_caption(self, snap: Snapshot) -> None:
+        """Write the scenario under the figure (part of a refresh's details: see ``Explorer.refresh``)."""
+        _set_captions(self.captions, snap)
+
     def _finish(self) -> None:
         self._pane = pn.pane.Bokeh(self.fig, sizing_mode="stretch_width", margin=(6, 6),
                                    css_classes=[f"pl-fig-{self.fig.name}"], min_width=self.min_width)
@@ -205,7 +209,7 @@ class DensityFigure(_FigureView):
         fig, self.captions = _base_figure("densities", "Sampling distributions under H0 and H1")
         self.fig = fig
         self.src_curve = ColumnDataSource(dict(x=EMPTY, null=EMPTY, alt=EMPTY), name="density-curve")
-        self.src_tail = [ColumnDataSource(dict(x=EMPTY, null=EMPTY, alt=EMPTY, zero=EMPTY),
+        self.src_tail = [ColumnDataSource(dict(x=EMPTY, null=EMPTY, alt=EMPTY),
                                           name=f"density-tail-{side}") for side in ("lower", "upper")]
         # exact designs: bars of the pmf, H0 left of each value and H1 right; inside the rejection
         # region the H0 bars are hatched vermillion and the H1 bars orange
@@ -214,8 +218,8 @@ class DensityFigure(_FigureView):
                          for key in ("null", "null-reject", "alt", "alt-reject")}
         pw, rj = [], []
         for src in self.src_tail:
-            pw.append(fig.varea("x", "zero", "alt", source=src, fill_color=PALETTE["power"], fill_alpha=0.55))
-            rj.append(fig.varea("x", "zero", "null", source=src, fill_color=PALETTE["reject"], fill_alpha=0.18,
+            pw.append(fig.varea(x="x", y1=0, y2="alt", source=src, fill_color=PALETTE["power"], fill_alpha=0.55))
+            rj.append(fig.varea(x="x", y1=0, y2="null", source=src, fill_color=PALETTE["reject"], fill_alpha=0.18,
                                 hatch_pattern="/", hatch_color=PALETTE["reject"], hatch_alpha=0.9,
                                 hatch_scale=9, hatch_weight=1.6))
         null_line = fig.line("x", "null", source=self.src_curve, line_color=PALETTE["null"], line_width=3,
@@ -296,7 +300,6 @@ class DensityFigure(_FigureView):
                 self.crit_labels[i].text_baseline = ("bottom" if i == 0 else "top") if snap.interval else \
                     ("top" if i == 0 else "bottom")
                 self.crit_labels[i].x_offset = (-4 if i == 0 else 4) if snap.interval else (4 if i == 0 else -4)
-        _set_captions(self.captions, snap)
 
     def _clear_bars(self) -> None:
         for src in self.src_bars.values():
@@ -307,12 +310,11 @@ class DensityFigure(_FigureView):
         self._clear_bars()
         self.src_curve.data = dict(x=x, null=f0, alt=f1)
         if interval:   # the test rejects inside [lo, hi] (empty when lo > hi)
-            empty = dict(x=EMPTY, null=EMPTY, alt=EMPTY, zero=EMPTY)
+            empty = dict(x=EMPTY, null=EMPTY, alt=EMPTY)
             if lo is not None and hi is not None and lo < hi:
                 inside = (x > lo) & (x < hi)
                 xs = np.concatenate(([lo], x[inside], [hi]))
-                self.src_tail[0].data = dict(x=xs, null=np.interp(xs, x, f0), alt=np.interp(xs, x, f1),
-                                             zero=np.zeros_like(xs))
+                self.src_tail[0].data = dict(x=xs, null=np.interp(xs, x, f0), alt=np.interp(xs, x, f1))
             else:
                 self.src_tail[0].data = empty
             self.src_tail[1].data = empty
@@ -321,13 +323,13 @@ class DensityFigure(_FigureView):
             if interval:
                 break
             if c is None or not math.isfinite(c):
-                self.src_tail[i].data = dict(x=EMPTY, null=EMPTY, alt=EMPTY, zero=EMPTY)
+                self.src_tail[i].data = dict(x=EMPTY, null=EMPTY, alt=EMPTY)
                 continue
             mask = x <= c if side == "lower" else x >= c
             xs = np.concatenate(([c], x[mask])) if side == "upper" else np.concatenate((x[mask], [c]))
             n0 = np.interp(xs, x, f0)
             n1 = np.interp(xs, x, f1)
-            self.src_tail[i].data = dict(x=xs, null=n0, alt=n1, zero=np.zeros_like(xs))
+            self.src_tail[i].data = dict(x=xs, null=n0, alt=n1)
         top = float(np.nanmax(np.concatenate((f0, f1)))) if x.size else 1.0
         _set_range(self.fig.x_range, float(x.min()), float(x.max()))
         _set_range(self.fig.y_range, 0.0, top * 1.08, floor=0.0)
@@ -337,7 +339,7 @@ class DensityFigure(_FigureView):
             self.src_curve.data = dict(x=EMPTY, null=EMPTY, alt=EMPTY)
         for src in self.src_tail:
             if len(src.data["x"]):
-                src.data = dict(x=EMPTY, null=EMPTY, alt=EMPTY, zero=EMPTY)
+                src.data = dict(x=EMPTY, null=EMPTY, alt=EMPTY)
         step = float(np.min(np.diff(x))) if x.size > 1 else 1.0
         reject = np.zeros(x.shape, dtype=bool)
         if lo is not None and math.isfinite(lo):
@@ -403,8 +405,9 @@ class EffectCurveFigure(_Overlays, _FigureView):
         with np.errstate(all="ignore"):
             std = np.broadcast_to(np.asarray(d.standardized({**p, d.effect: x}), dtype=float), x.shape)
         self.src_curve.data = dict(x=x, power=np.asarray(cur.power, dtype=float), std=np.array(std))
-        self.src_point.data = dict(x=np.array([res.effect]), power=np.array([res.power]),
-                                   std=np.array([res.standardized_effect]))
+        # one point: plain lists travel inside the message (arrays become separate binary frames)
+        self.src_point.data = dict(x=[float(res.effect)], power=[float(res.power)],
+                                   std=[float(res.standardized_effect)])
         unit = effect_unit(d, snap.unit_name)
         self.fig.xaxis.axis_label = with_unit(f"effect: {d.param(d.effect).label}", unit)
         self.target.location = res.solved.target_power
@@ -424,7 +427,6 @@ class EffectCurveFigure(_Overlays, _FigureView):
         hi = float(max(x.max(), res.effect)) if x.size else 1.0
         _set_range(self.fig.x_range, lo, hi, pad=0.03)
         _set_range(self.fig.y_range, 0.0, 1.04, keep=1.0, pad=0.0)
-        _set_captions(self.captions, snap)
 
 
 class NCurveFigure(_Overlays, _FigureView):
@@ -483,6 +485,8 @@ class NCurveFigure(_Overlays, _FigureView):
     def set_simulated(self, points) -> None:
         """Show simulated (n, power, low, high) points; none hides them."""
         arr = np.asarray(points, dtype=float).reshape(-1, 4)
+        if not len(arr) and not len(self.src_sim.data["n"]):
+            return
         self.src_sim.data = dict(n=arr[:, 0], power=arr[:, 1], lower=arr[:, 2], upper=arr[:, 3])
         self._sim_legend.visible = bool(len(arr))
 
@@ -490,7 +494,7 @@ class NCurveFigure(_Overlays, _FigureView):
         d, res, cur = snap.design, snap.result, snap.n_curve
         x = np.asarray(cur.x, dtype=float)
         self.src_curve.data = dict(n=x, power=np.asarray(cur.power, dtype=float))
-        self.src_point.data = dict(n=np.array([float(res.n)]), power=np.array([res.power]))
+        self.src_point.data = dict(n=[float(res.n)], power=[float(res.power)])
         self.fig.xaxis.axis_label = f"sample size n ({d.n.unit})"
         self.target.location = res.solved.target_power
         self.target_label.y = res.solved.target_power
@@ -508,4 +512,3 @@ class NCurveFigure(_Overlays, _FigureView):
         lo = float(x.min()) if x.size else 0.0
         _set_range(self.fig.x_range, lo, hi, pad=0.03, floor=lo)
         _set_range(self.fig.y_range, 0.0, 1.04, keep=1.0, pad=0.0)
-        _set_captions(self.captions, snap)

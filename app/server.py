@@ -89,7 +89,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--no-password", action="store_true",
                         help="share on a network without a password (only in a trusted room)")
     parser.add_argument("--threads", type=int, default=4,
-                        help="worker threads shared by the sessions (default 4)")
+                        help="worker threads shared by the sessions (default 4; 0 handles every change on "
+                             "the server's event loop)")
     parser.add_argument("--show", action="store_true", help="open the page in the default browser")
 
 
@@ -415,8 +416,8 @@ def run(args: argparse.Namespace) -> int:
     # cdn.holoviz.org for its style sheets). The variable makes the fallback this server too.
     os.environ["BOKEH_RESOURCES"] = "server"
     address = args.address
-    if args.threads < 1:
-        print("powerlens serve: --threads must be at least 1", file=sys.stderr)
+    if args.threads < 0:
+        print("powerlens serve: --threads must be 0 or more", file=sys.stderr)
         return 2
     shared = not _is_loopback(address)
     try:
@@ -431,7 +432,9 @@ def run(args: argparse.Namespace) -> int:
               f"--no-password.", file=sys.stderr)
         return 2
     debug_stats = os.environ.get(DEBUG_STATS_ENV, "") == "1"
-    pn.config.nthreads = args.threads
+    pn.config.nthreads = args.threads or None
+    from . import speedups
+    speedups.install_server()
     pn.config.raw_css = [*pn.config.raw_css, CSS]
     explicit = args.port is not None
     port = args.port if explicit else DEFAULT_PORT

@@ -1,4 +1,4 @@
-"""Two measured speed-ups for redrawing the figures in the browser (BokehJS 3.9).
+"""Measured speed-ups for redrawing the figures: two in the browser (BokehJS 3.9), one on the server.
 
 1. BokehJS lets every line, fill and text property of a figure be overridden by a CSS variable
    (``--bk-line-color`` and so on). To find out whether one is set, it calls
@@ -17,13 +17,26 @@ Measured on the explorer page in headless Chromium, per slider change: style-she
 changes on a loaded machine, 110-137 ms -> 77-105 ms. The figures are the same pixel for pixel
 (compared on screenshots of the page). ``install`` runs the patch once the page's views exist;
 the browser test ``test_visual_css_lookup_is_skipped`` checks that it is in place.
+
+3. On the server, Bokeh 3.9 sends a message as separate websocket frames (header, metadata,
+   content, then a header and a payload for each binary array) and waits for each frame to be
+   flushed before writing the next. Every wait is a trip round the event loop; with the worker
+   threads holding the GIL a trip can take milliseconds, and one slider change's message has about
+   60 frames (each view's arrays travel as binary buffers). Measured: the frames of one change
+   arrived spread over 12-50 ms. ``install_server`` makes ``Message.send`` write all frames of a
+   message at once, in order, under the connection's write lock, and wait once for the last.
+   Tornado queues each frame in order as it is written, so the browser receives the same bytes.
 """
 from __future__ import annotations
 
+import json
+
 from bokeh.document import Document
 from bokeh.models import CustomJS
+from bokeh.protocol.message import Message
+from tornado.websocket import WebSocketHandler
 
-__all__ = ["SKIP_CSS_LOOKUP_JS", "VISUAL_CSS_VARIABLES", "install"]
+__all__ = ["SKIP_CSS_LOOKUP_JS", "VISUAL_CSS_VARIABLES", "install", "install_server"]
 
 #: the CSS variable prefixes BokehJS consults for visual properties (none is used here)
 VISUAL_CSS_VARIABLES = ("--bk-line-", "--bk-fill-", "--bk-hatch-", "--bk-text-", "--bk-background-",
@@ -35,13 +48,19 @@ const patch = () => {
   const index = (typeof Bokeh !== 'undefined' && Bokeh.index) ? Object.values(Bokeh.index) : [];
   const seen = new Set();
   const stack = [...index];
+  const own = (obj, name) => {      // the prototype in obj's chain that defines name itself
+    let proto = obj != null ? Object.getPrototypeOf(obj) : null;
+    while (proto && !Object.prototype.hasOwnProperty.call(proto, name)) proto = Object.getPrototypeOf(proto);
+    return proto;
+  };
+  const done = () => window.__powerlens_css_lookup_skipped && window.__powerlens_same_css_kept &&
+                     window.__powerlens_font_size_kept && window.__powerlens_hatch_kept;
   while (stack.length) {
     const view = stack.pop();
     if (view == null || seen.has(view)) continue;
     seen.add(view);
     for (const sheet of [view._css_vars, view.position]) {   // the view's own inline style sheets
-      let proto = sheet != null ? Object.getPrototypeOf(sheet) : null;
-      while (proto && !Object.prototype.hasOwnProperty.call(proto, '_update')) proto = Object.getPrototypeOf(proto);
+      const proto = own(sheet, '_update');
       if (proto && typeof proto._update === 'function' && 'el' in sheet && !proto.__powerlens_same_text) {
         const write = proto._update;
         proto._update = function (css) { if (this.el.textContent !== css) write.call(this, css); };
@@ -49,18 +68,55 @@ const patch = () => {
         window.__powerlens_same_css_kept = true;
       }
     }
+    if (view.renderer_views != null && 'el' in view) {       // a plot: its font size, read once
+      const proto = own(view, 'base_font_size');
+      const desc = proto && Object.getOwnPropertyDescriptor(proto, 'base_font_size');
+      if (desc && desc.get && !proto.__powerlens_font_size) {
+        Object.defineProperty(proto, 'base_font_size', {
+          configurable: true, set: desc.set,
+          get() { if (this.__powerlens_bfs == null) this.__powerlens_bfs = desc.get.call(this);
+                  return this.__powerlens_bfs; }});
+        proto.__powerlens_font_size = true;
+        window.__powerlens_font_size_kept = true;
+      }
+    }
     for (const vis of Object.values(view.visuals ?? {})) {
-      let proto = vis != null ? Object.getPrototypeOf(vis) : null;
-      while (proto && !Object.prototype.hasOwnProperty.call(proto, '_get_css_value'))
-        proto = Object.getPrototypeOf(proto);
+      const proto = own(vis, '_get_css_value');
       if (proto && !proto.__powerlens_skip) {
         proto._get_css_value = function () { return ''; };
         proto.__powerlens_skip = true;
         window.__powerlens_css_lookup_skipped = true;
       }
+      const hatch = own(vis, 'update');
+      if (hatch && 'get_hatch_pattern' in vis && !hatch.__powerlens_hatch) {
+        const update = hatch.update;
+        const cache = new Map();
+        hatch.update = function () {
+          if (!this.doit || this.get_hatch_extra() != null && Object.keys(this.get_hatch_extra()).length) {
+            return update.call(this);
+          }
+          const key = [this.get_hatch_pattern(), this.get_hatch_color(), this.get_hatch_alpha(), this.get_hatch_scale(),
+                       this.get_hatch_weight(), window.devicePixelRatio].join('|');
+          const hit = cache.get(key);
+          if (hit !== undefined) {
+            this._update_iteration++;
+            this._hatch_image = hit[0];
+            this._hatch_svg = hit[1];
+            return;
+          }
+          update.call(this);
+          if (this._hatch_image != null) cache.set(key, [this._hatch_image, this._hatch_svg]);
+        };
+        hatch.__powerlens_hatch = true;
+        window.__powerlens_hatch_kept = true;
+      }
     }
-    if (window.__powerlens_css_lookup_skipped && window.__powerlens_same_css_kept) return true;
+    if (done()) return true;
     for (const child of (view.child_views ?? [])) stack.push(child);
+    for (const name of ['glyph', 'selection_glyph', 'nonselection_glyph', 'hover_glyph', 'muted_glyph',
+                        'decimated_glyph']) {
+      if (view[name] != null && typeof view[name] === 'object') stack.push(view[name]);
+    }
     const rv = view.renderer_views;
     if (rv != null && typeof rv.values === 'function') for (const child of rv.values()) stack.push(child);
   }
@@ -77,3 +133,28 @@ if (!patch()) {
 def install(doc: Document) -> None:
     """Install both speed-ups on this document's page, once it is ready."""
     doc.js_on_event("document_ready", CustomJS(code=SKIP_CSS_LOOKUP_JS))
+
+
+_bokeh_send = Message.send
+
+
+async def _send_at_once(self: Message, conn) -> int:
+    """``Message.send`` writing every frame before waiting (see the module's note 3)."""
+    if not isinstance(conn, WebSocketHandler):      # a client connection: Bokeh's own way
+        return await _bokeh_send(self, conn)
+    frames: list[tuple[str | bytes, bool]] = [(self.header_json, False), (self.metadata_json, False),
+                                              (self.content_json, False)]
+    for buffer in self._buffers:
+        frames += [(json.dumps(buffer.ref), False), (buffer.to_bytes(), True)]
+    with await conn.write_lock.acquire():
+        last = None
+        for data, binary in frames:
+            last = WebSocketHandler.write_message(conn, data, binary=binary)
+        if last is not None:
+            await last
+    return sum(len(data) for data, _ in frames)
+
+
+def install_server() -> None:
+    """Send each Bokeh message's frames in one go (idempotent; for the server process)."""
+    Message.send = _send_at_once
