@@ -8,7 +8,7 @@ import panel as pn
 
 from .state import ExplorerState, Snapshot
 from .text import FIND_LABELS, effect_unit, effect_value, num, value_unit
-from .theme import CARD_CSS, PANE_CSS
+from .theme import CARD_CSS, PANE_CSS, LiveHTML
 
 __all__ = ["Readout", "Working", "readout_rows", "working_rows"]
 
@@ -129,8 +129,7 @@ class Readout(pn.viewable.Viewer):
     def __init__(self, state: ExplorerState) -> None:
         super().__init__()
         self.state = state
-        self.pane = pn.pane.HTML("", stylesheets=[PANE_CSS], sizing_mode="stretch_width",
-                                 css_classes=["pl-readout"], margin=(4, 10))
+        self.pane = LiveHTML(css_classes=["pl-readout"], margin=(4, 10))
 
     def __panel__(self):
         return self.pane

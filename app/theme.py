@@ -6,7 +6,11 @@ hatching or lightness, so that a grey-scale print keeps them apart.
 """
 from __future__ import annotations
 
-__all__ = ["BAND", "CSS", "FONT", "INK", "PALETTE", "PIN_STYLES", "button_look", "label_kw", "style_figure"]
+import panel as pn
+from bokeh.models import Div
+
+__all__ = ["BAND", "CSS", "FONT", "INK", "PALETTE", "PIN_STYLES", "LiveHTML", "button_look", "label_kw",
+           "style_figure"]
 
 PALETTE = {
     "null": "#6E6E6E",         # neutral grey: the null hypothesis
@@ -151,6 +155,33 @@ def label_kw(text: str) -> dict:
 #: keep "card-header" in them: without it Panel's header is no longer a row and the open/close arrow
 #: sits on a line of its own above the title.
 CARD_CSS = ":host { font-size: 17px; } .card-title { font-size: 18px; font-weight: 700; }"
+
+
+class LiveHTML(pn.viewable.Viewer):
+    """HTML whose text changes at every slider step: a plain Bokeh ``Div``, its text set in place.
+
+    Changing a Panel HTML pane re-derives all of the pane's properties on the server (about 4 ms
+    a change here) and runs Panel's script handling in the browser; the Div changes one property.
+    ``object`` reads and writes the HTML like a pane's.
+    """
+
+    def __init__(self, css_classes: list[str], margin=(4, 10)) -> None:
+        super().__init__()
+        self.div = Div(text="", css_classes=css_classes, stylesheets=[PANE_CSS], sizing_mode="stretch_width",
+                       margin=margin)
+        self._pane = pn.pane.Bokeh(self.div, sizing_mode="stretch_width", margin=0)
+
+    def __panel__(self):
+        return self._pane
+
+    @property
+    def object(self) -> str:
+        return self.div.text
+
+    @object.setter
+    def object(self, text: str) -> None:
+        if self.div.text != text:
+            self.div.text = text
 
 
 def show_message(pane, text: str | None) -> None:
