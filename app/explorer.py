@@ -53,6 +53,7 @@ class Explorer(pn.viewable.Viewer):
         self.densities = DensityFigure()
         self.effect_curve = EffectCurveFigure()
         self.n_curve = NCurveFigure()
+        self._views = (self.densities, self.effect_curve, self.n_curve)
         self.readout = Readout(st)
         self.working = Working(st)
         self.sim = SimulationPanel(st, on_result=self._simulated)
@@ -155,7 +156,7 @@ class Explorer(pn.viewable.Viewer):
             self.controls.refresh()
             snap = st.snapshot
             if figures and snap is not None:
-                for view in (self.densities, self.effect_curve, self.n_curve):
+                for view in self._views:
                     view.update(snap)
                 self.n_curve.set_simulated(self.sim.points_for(snap.result.solved))
             self.readout.update()
@@ -169,7 +170,7 @@ class Explorer(pn.viewable.Viewer):
         self.effect_helper.update()
         self.allocation.update()
         if snap is not None:
-            for view in (self.densities, self.effect_curve, self.n_curve):
+            for view in self._views:
                 view.set_caption(snap)
             self.working.update()
         self.basis.update()
