@@ -24,7 +24,8 @@ the browser test ``test_visual_css_lookup_is_skipped`` checks that it is in plac
    threads holding the GIL a trip can take milliseconds, and one slider change's message has about
    60 frames (each view's arrays travel as binary buffers). Measured: the frames of one change
    arrived spread over 12-50 ms. ``install_server`` makes ``Message.send`` write all frames of a
-   message at once, in order, under the connection's write lock, and wait once for the last.
+   message at once, in order, under the connection's write lock, then wait for them all together
+   (so that a browser going away mid-message is one handled error, not a logged traceback).
    Tornado queues each frame in order as it is written, so the browser receives the same bytes.
 
 4. A plot reads its element's computed font size (``getComputedStyle``) for every text it measures,
@@ -35,6 +36,7 @@ the browser test ``test_visual_css_lookup_is_skipped`` checks that it is in plac
 """
 from __future__ import annotations
 
+import asyncio
 import json
 
 from bokeh.document import Document
@@ -153,11 +155,10 @@ async def _send_at_once(self: Message, conn) -> int:
     for buffer in self._buffers:
         frames += [(json.dumps(buffer.ref), False), (buffer.to_bytes(), True)]
     with await conn.write_lock.acquire():
-        last = None
-        for data, binary in frames:
-            last = WebSocketHandler.write_message(conn, data, binary=binary)
-        if last is not None:
-            await last
+        writes = [WebSocketHandler.write_message(conn, data, binary=binary) for data, binary in frames]
+        # wait for every write, not only the last: if the browser goes away mid-message, each
+        # write fails, and a failure nobody awaits is logged by asyncio as a traceback
+        await asyncio.gather(*writes)
     return sum(len(data) for data, _ in frames)
 
 

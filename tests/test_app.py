@@ -346,6 +346,87 @@ def test_speedup_is_attached_to_the_session_document():
     assert any(cb.code == speedups.SKIP_CSS_LOOKUP_JS for cb in callbacks)
 
 
+class _Socket:
+    """Stands in for a websocket connection: records frames, or fails each write like a closed stream."""
+
+    def __init__(self, closed: bool):
+        import tornado.locks
+        self.closed, self.frames, self.write_lock = closed, [], tornado.locks.Lock()
+
+    def write_message(self, data, binary=False):
+        import asyncio
+        from tornado.websocket import WebSocketClosedError
+
+        async def write():
+            await asyncio.sleep(0)
+            if self.closed:
+                raise WebSocketClosedError()
+            self.frames.append((data, binary))
+        return asyncio.ensure_future(write())
+
+
+def _send_with(closed: bool):
+    """Send one Bokeh patch message with three binary arrays through speedups' send; the frames and the
+    asyncio errors nobody retrieved."""
+    import asyncio
+    import gc
+    from unittest import mock
+    import numpy as np
+    from bokeh.document import Document
+    from bokeh.models import ColumnDataSource
+    from bokeh.protocol import Protocol
+    from tornado.websocket import WebSocketHandler
+    from app import speedups
+
+    doc = Document()
+    source = ColumnDataSource({"x": np.arange(3.0), "y": np.ones(3), "z": np.zeros(3)})
+    doc.add_root(source)
+    events = []
+    doc.on_change(lambda e: events.append(e))
+    source.data = {"x": np.arange(4.0), "y": np.ones(4), "z": np.zeros(4)}
+    message = Protocol().create("PATCH-DOC", events)
+    sock = _Socket(closed)
+    unretrieved = []
+
+    async def main():
+        asyncio.get_running_loop().set_exception_handler(lambda loop, ctx: unretrieved.append(ctx))
+        with mock.patch.object(WebSocketHandler, "write_message", _Socket.write_message), \
+                mock.patch.object(speedups, "WebSocketHandler", type("H", (WebSocketHandler,), {})):
+            conn = object.__new__(speedups.WebSocketHandler)
+            conn.__dict__.update(vars(sock))
+            conn.frames = sock.frames
+            try:
+                return await speedups._send_at_once(message, conn), message
+            except Exception as exc:       # noqa: BLE001 - the error Bokeh's connection handles
+                return exc, message
+            finally:
+                await asyncio.sleep(0.01)
+                gc.collect()
+    sent, message = asyncio.run(main())
+    return sent, message, sock.frames, unretrieved
+
+
+def test_server_send_writes_every_frame_in_order():
+    """speedups' send writes Bokeh's frames (header, metadata, content, then ref + bytes per array) in order."""
+    sent, message, frames, unretrieved = _send_with(closed=False)
+    assert len(message.buffers) >= 3
+    assert len(frames) == 3 + 2 * len(message.buffers)
+    assert frames[0][0] == message.header_json and frames[2][0] == message.content_json
+    assert [binary for _, binary in frames[3:]] == [False, True] * len(message.buffers)
+    assert sent == sum(len(data) for data, _ in frames)
+    assert unretrieved == []
+
+
+def test_server_send_to_a_closed_socket_is_one_handled_error():
+    """A browser gone mid-message: the send raises WebSocketClosedError once (Bokeh's connection logs
+    that as a warning) and asyncio reports no 'exception was never retrieved' traceback."""
+    from tornado.websocket import WebSocketClosedError
+    sent, _, frames, unretrieved = _send_with(closed=True)
+    assert isinstance(sent, WebSocketClosedError)
+    assert frames == []
+    assert unretrieved == [], [c.get("message") for c in unretrieved]
+
+
 def test_switching_design_carries_effect_and_spread_together():
     """Within a family the effect and SD carry over (a common SD becomes both groups' SDs); when a
     spread cannot (a paired SD of differences), effect and spreads all take the new defaults."""
