@@ -42,7 +42,7 @@ import json
 from bokeh.document import Document
 from bokeh.models import CustomJS
 from bokeh.protocol.message import Message
-from tornado.websocket import WebSocketHandler
+from tornado.websocket import WebSocketClosedError, WebSocketHandler
 
 __all__ = ["SKIP_CSS_LOOKUP_JS", "VISUAL_CSS_VARIABLES", "install", "install_server"]
 
@@ -155,9 +155,15 @@ async def _send_at_once(self: Message, conn) -> int:
     for buffer in self._buffers:
         frames += [(json.dumps(buffer.ref), False), (buffer.to_bytes(), True)]
     with await conn.write_lock.acquire():
-        writes = [WebSocketHandler.write_message(conn, data, binary=binary) for data, binary in frames]
-        # wait for every write, not only the last: if the browser goes away mid-message, each
-        # write fails, and a failure nobody awaits is logged by asyncio as a traceback
+        # every write is waited for, not only the last: if the browser goes away mid-message, the
+        # writes already queued fail, and a failure nobody awaits is logged by asyncio as a traceback
+        writes = []
+        try:
+            for data, binary in frames:
+                writes.append(WebSocketHandler.write_message(conn, data, binary=binary))
+        except WebSocketClosedError:          # closed before this frame: collect the earlier ones
+            await asyncio.gather(*writes, return_exceptions=True)
+            raise
         await asyncio.gather(*writes)
     return sum(len(data) for data, _ in frames)
 

@@ -347,15 +347,22 @@ def test_speedup_is_attached_to_the_session_document():
 
 
 class _Socket:
-    """Stands in for a websocket connection: records frames, or fails each write like a closed stream."""
+    """Stands in for a websocket connection: records frames, or fails like a stream closed mid-message
+    (``closed``: the writes already queued fail; from write number ``refuse_from`` on, the write
+    itself raises, as tornado's does once it knows the connection is closing)."""
 
-    def __init__(self, closed: bool):
+    def __init__(self, closed: bool, refuse_from: int | None = None):
         import tornado.locks
-        self.closed, self.frames, self.write_lock = closed, [], tornado.locks.Lock()
+        self.closed, self.refuse_from, self.frames, self.write_lock = closed, refuse_from, [], tornado.locks.Lock()
+        self.calls = 0
 
     def write_message(self, data, binary=False):
         import asyncio
         from tornado.websocket import WebSocketClosedError
+
+        self.calls += 1
+        if self.refuse_from is not None and self.calls >= self.refuse_from:
+            raise WebSocketClosedError()
 
         async def write():
             await asyncio.sleep(0)
@@ -365,7 +372,7 @@ class _Socket:
         return asyncio.ensure_future(write())
 
 
-def _send_with(closed: bool):
+def _send_with(closed: bool, refuse_from: int | None = None):
     """Send one Bokeh patch message with three binary arrays through speedups' send; the frames and the
     asyncio errors nobody retrieved."""
     import asyncio
@@ -385,7 +392,7 @@ def _send_with(closed: bool):
     doc.on_change(lambda e: events.append(e))
     source.data = {"x": np.arange(4.0), "y": np.ones(4), "z": np.zeros(4)}
     message = Protocol().create("PATCH-DOC", events)
-    sock = _Socket(closed)
+    sock = _Socket(closed, refuse_from)
     unretrieved = []
 
     async def main():
@@ -422,6 +429,16 @@ def test_server_send_to_a_closed_socket_is_one_handled_error():
     that as a warning) and asyncio reports no 'exception was never retrieved' traceback."""
     from tornado.websocket import WebSocketClosedError
     sent, _, frames, unretrieved = _send_with(closed=True)
+    assert isinstance(sent, WebSocketClosedError)
+    assert frames == []
+    assert unretrieved == [], [c.get("message") for c in unretrieved]
+
+
+def test_server_send_when_the_socket_closes_between_frames():
+    """Closed after four frames were queued: the fifth write raises at once; the four queued writes
+    still fail and are collected, so again no unretrieved-exception traceback reaches the log."""
+    from tornado.websocket import WebSocketClosedError
+    sent, _, frames, unretrieved = _send_with(closed=True, refuse_from=5)
     assert isinstance(sent, WebSocketClosedError)
     assert frames == []
     assert unretrieved == [], [c.get("message") for c in unretrieved]
