@@ -24,7 +24,7 @@ from powercore.allocation import Allocation, BudgetPlan, best_ratio, budget_plan
 from .effect_helper import STALE, card_heading, primary_button
 from .state import ExplorerState
 from .text import effect_unit, num, value_unit
-from .theme import PANE_CSS, WIDGET_CSS, label_kw, show_message
+from .theme import PANE_CSS, WIDGET_CSS, fill_when_opened, label_kw, show_message
 
 __all__ = ["AllocationPanel", "is_two_group"]
 
@@ -106,11 +106,11 @@ class AllocationPanel(pn.viewable.Viewer):
                                margin=(10, 10, 0, 10))
         heading2 = pn.pane.HTML('<p class="pl-label">What the budget buys (at the current ratio)</p>',
                                 stylesheets=[PANE_CSS], margin=(10, 10, 0, 10))
-        self.card = pn.Card(self.cost1.layout, self.cost2.layout, heading, self.ratio_out, self.use_ratio,
-                            heading2, self.budget.layout, self.plan_out, self.use_sizes,
-                            header=pn.pane.HTML(card_heading("Allocation and budget"), stylesheets=[PANE_CSS],
+        self.card = pn.Card(header=pn.pane.HTML(card_heading("Allocation and budget"), stylesheets=[PANE_CSS],
                                                 margin=(2, 4)), collapsed=True, sizing_mode="stretch_width",
                             margin=(8, 10), css_classes=["pl-allocation"], stylesheets=[PANE_CSS])
+        fill_when_opened(self.card, [self.cost1.layout, self.cost2.layout, heading, self.ratio_out, self.use_ratio,
+                                     heading2, self.budget.layout, self.plan_out, self.use_sizes])
         self.card.param.watch(lambda e: self.update(), "collapsed")
         self.update()
 

@@ -28,7 +28,7 @@ from powercore.standard import PerProportion, PerRmsSD, PerSD
 
 from .state import ExplorerState
 from .text import effect_unit, num, value_unit
-from .theme import PANE_CSS, WIDGET_CSS, label_kw, show_message
+from .theme import PANE_CSS, WIDGET_CSS, fill_when_opened, label_kw, show_message
 
 __all__ = ["EffectHelper", "HelperInputError", "card_heading", "converter_for", "primary_button"]
 
@@ -464,10 +464,10 @@ class EffectHelper(pn.viewable.Viewer):
         self._boxes = pn.Column(sizing_mode="stretch_width", margin=0)
         self.heading = pn.pane.HTML(card_heading("Work out the effect"), stylesheets=[PANE_CSS], margin=(2, 4),
                                     css_classes=["pl-helper-title"])
-        self.card = pn.Card(self.note, self._boxes, self.readout, self.use, self.message,
-                            header=self.heading, collapsed=True, sizing_mode="stretch_width",
+        self.card = pn.Card(header=self.heading, collapsed=True, sizing_mode="stretch_width",
                             margin=(8, 10), css_classes=["pl-effect-helper"], stylesheets=[PANE_CSS])
         self.card.param.watch(self._opened, "collapsed")
+        fill_when_opened(self.card, [self.note, self._boxes, self.readout, self.use, self.message])
         self.update()
 
     def __panel__(self):

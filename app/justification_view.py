@@ -20,7 +20,7 @@ import powercore as pc
 from powercore.justification import BASES, DELTA2_NOTE, OBSERVED_WARNING, check_basis, justification, standardized_only
 
 from .state import ExplorerState
-from .theme import CARD_CSS, PANE_CSS, PIN_STYLES, WIDGET_CSS, button_look, label_kw
+from .theme import CARD_CSS, PANE_CSS, PIN_STYLES, WIDGET_CSS, button_look, keep_shown, label_kw
 
 if TYPE_CHECKING:   # pragma: no cover
     from .pins import PinBoard
@@ -170,7 +170,8 @@ class JustificationCard(pn.viewable.Viewer):
         intro = pn.pane.HTML('<p class="pl-note">Each paragraph takes every number from the assumptions record of '
                              'its scenario. Check the wording against the reporting rules that apply to the '
                              'study.</p>', stylesheets=[PANE_CSS], margin=(0, 10), sizing_mode="stretch_width")
-        self.card = pn.Card(intro, self.current.layout, *(b.layout for b in self.blocks),
+        self._shown_blocks = pn.Column(sizing_mode="stretch_width", margin=0)   # the blocks of the pins there are
+        self.card = pn.Card(intro, self.current.layout, self._shown_blocks,
                             title="Sample-size justification", collapsed=False, sizing_mode="stretch_width",
                             css_classes=["pl-justification-card"], margin=(6, 10),
                             header_css_classes=["card-header", "pl-justification-header"], stylesheets=[CARD_CSS])
@@ -216,3 +217,4 @@ class JustificationCard(pn.viewable.Viewer):
                 made = self._made[slot] = (pin.result, pin.basis,
                                            justification(pin.result, version, pin.basis, pin.unit_name))
             block.show(head, made[2], warn=pin.basis == "observed")
+        keep_shown(self._shown_blocks, [b.layout for b in self.blocks])

@@ -29,7 +29,7 @@ from powercore.record import MAX_NAME, MAX_PINNED, Pinned, check_pin_name
 from .state import ExplorerState
 from .text import DIRECTION_LABELS, FIND_LABELS, MULTIPLICITY_LABELS, effect_unit, effect_value, num, \
     param_unit, value_unit
-from .theme import PANE_CSS, PIN_STYLES, WIDGET_CSS, button_look
+from .theme import PANE_CSS, PIN_STYLES, WIDGET_CSS, button_look, keep_shown
 
 __all__ = ["MAX_PINS", "Pin", "PinBoard", "comparison_rows", "dash_svg"]
 
@@ -197,9 +197,10 @@ class PinBoard(pn.viewable.Viewer):
         label = pn.pane.HTML('<p class="pl-label">Side by side:</p>', stylesheets=[PANE_CSS], margin=(14, 4, 0, 10))
         hint = pn.pane.HTML(f'<p class="pl-note">Pin up to {MAX_PINS} scenarios to compare them here and on the '
                             'power curves.</p>', stylesheets=[PANE_CSS], margin=(10, 6, 0, 6))
+        self._shown_rows = pn.Column(sizing_mode="stretch_width", margin=0)   # the rows of the pins there are
         self._layout = pn.Column(
             pn.Row(label, self.name_box, self.pin_button, hint, margin=0, styles={"flex-wrap": "wrap"}),
-            self.name_message, self.button_message, *(r.layout for r in self.rows), self.table,
+            self.name_message, self.button_message, self._shown_rows, self.table,
             sizing_mode="stretch_width", margin=(0, 0, 4, 0), css_classes=["pl-pins"])
         self.update()
 
@@ -370,6 +371,7 @@ class PinBoard(pn.viewable.Viewer):
                     row.name_box.value = pin.name
                 if not row.layout.visible:
                     row.layout.visible = True
+            keep_shown(self._shown_rows, [r.layout for r in self.rows])
             effect, n = {}, {}
             for pin in self.pins:
                 on_e, on_n = self.drawn_on(pin)

@@ -41,7 +41,8 @@ from powercore.uncertainty import (assurance, power_band, sd_interval, sd_params
 
 from .state import ExplorerState, Snapshot
 from .text import effect_unit, num, param_unit, value_unit
-from .theme import CARD_CSS, FONT, INK, PALETTE, PANE_CSS, WIDGET_CSS, button_look, label_kw, show_message, style_figure
+from .theme import (CARD_CSS, FONT, INK, PALETTE, PANE_CSS, WIDGET_CSS, button_look, fill_when_opened, label_kw,
+                    show_message, style_figure)
 
 __all__ = ["TARGET_POWERS", "UncertaintyPanel"]
 
@@ -218,7 +219,8 @@ class UncertaintyPanel(pn.viewable.Viewer):
             self.spread_pane, sizing_mode="stretch_width", margin=0, name="Uncertain spread")
         tab_table = pn.Column(pn.Row(self.grid_kind, self.download, margin=0), self.table_pane,
                               sizing_mode="stretch_width", margin=0, name="Sensitivity table")
-        self.tabs = pn.Tabs(tab_assurance, tab_spread, tab_table, sizing_mode="stretch_width", margin=(0, 4),
+        self.tabs = pn.Tabs(tab_assurance, tab_spread, tab_table, dynamic=True, sizing_mode="stretch_width",
+                            margin=(0, 4),
                             css_classes=["pl-unc-tabs"], stylesheets=[WIDGET_CSS])
         self.stale = pn.pane.HTML("", stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(0, 10),
                                   css_classes=["pl-unc-stale"])
@@ -227,10 +229,11 @@ class UncertaintyPanel(pn.viewable.Viewer):
                                            margin=(4, 10), width=240)
         self.recompute.on_click(lambda e: self._input_changed())
         self._stale_row = pn.Row(self.stale, self.recompute, visible=False, sizing_mode="stretch_width", margin=0)
-        self.card = pn.Card(pn.pane.HTML(intro, stylesheets=[PANE_CSS], sizing_mode="stretch_width", margin=(0, 10)),
-                            self._stale_row, self.tabs, title="What if the assumptions are wrong?", collapsed=collapsed,
+        self.card = pn.Card(title="What if the assumptions are wrong?", collapsed=collapsed,
                             sizing_mode="stretch_width", margin=(6, 10), css_classes=["pl-unc"],
                             header_css_classes=["card-header", "pl-unc-header"], stylesheets=[CARD_CSS])
+        fill_when_opened(self.card, [pn.pane.HTML(intro, stylesheets=[PANE_CSS], sizing_mode="stretch_width",
+                                                  margin=(0, 10)), self._stale_row, self.tabs])
         self.card.param.watch(lambda e: self._opened() if not e.new else None, "collapsed")
 
     def __panel__(self):
