@@ -146,8 +146,8 @@ class Explorer(pn.viewable.Viewer):
     def refresh(self, figures: bool = True, details: bool = True) -> None:
         """Bring the controls and views in line with the state, as one batch of changes.
 
-        The controls, the three views and the readout follow every change. The ``details`` (the
-        captions under the figures, the working, justification, share link, pins, helpers and
+        The controls, the three views, the readout and the share link follow every change. The
+        ``details`` (the captions under the figures, the working, justification, pins, helpers and
         uncertainty card) are heavier to send and to redraw: while a slider is dragged the page
         refreshes them only once the hand has rested for ``SETTLE_MS``.
         """
@@ -160,6 +160,7 @@ class Explorer(pn.viewable.Viewer):
                     view.update(snap)
                 self.n_curve.set_simulated(self.sim.points_for(snap.result.solved))
             self.readout.update()
+            self.share.update()    # the link and file name that the copy and export buttons read in the browser
             if self.scale.value != st.scale:
                 self.scale.value = st.scale
             if details:
@@ -177,7 +178,6 @@ class Explorer(pn.viewable.Viewer):
         self.pins.update()
         self.justification.update()
         self.sim.refresh()
-        self.share.update()
         self.uncertainty.update()
 
     def _build_layout(self):
