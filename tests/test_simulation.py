@@ -111,6 +111,22 @@ def test_progress_and_cancel():
     assert res.cancelled and res.reps == seen[-1] == 10_000
 
 
+def test_large_studies_are_drawn_in_small_blocks():
+    """A 4,000-event log-rank study is drawn 250 replicates at a time (a million cells), so progress and
+    cancel are seen within about a second; small studies keep blocks of powercore.simulate.CHUNK."""
+    from powercore import simulate as sim_mod
+    d = pc.get_design("logrank-events")
+    steps = []
+    simulate(pc.Scenario(design=d.id, params=d.defaults(), n=4000), 1000, seed=3,
+             progress=lambda done, total: steps.append(done))
+    assert steps == [250, 500, 750, 1000]
+    assert 250 * 4000 <= sim_mod.CHUNK_CELLS
+    small = []
+    simulate(pc.Scenario("mean-z", n=20), 12_000, seed=3,
+             progress=lambda done, total: small.append(done))
+    assert small == [sim_mod.CHUNK, 2 * sim_mod.CHUNK, 12_000]
+
+
 @pytest.mark.parametrize("kwargs, field", [({"reps": 10}, "reps"), ({"reps": 1.5}, "reps"),
                                            ({"reps": 1000, "seed": -1}, "seed")])
 def test_bad_simulation_input_names_the_field(kwargs, field):
