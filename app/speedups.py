@@ -1,4 +1,4 @@
-"""Measured speed-ups for redrawing the figures: four in the browser (BokehJS 3.9), one on the server.
+"""Measured speed-ups for redrawing the figures: five in the browser (BokehJS 3.9), one on the server.
 
 1. BokehJS lets every line, fill and text property of a figure be overridden by a CSS variable
    (``--bk-line-color`` and so on). To find out whether one is set, it calls
@@ -33,6 +33,11 @@ the browser test ``test_visual_css_lookup_is_skipped`` checks that it is in plac
    changes, so each plot now reads it once.
 5. A hatched area redrew its hatch pattern on two new canvases at every data change; the pattern
    now comes from a cache keyed by pattern, colour, alpha, scale, weight and pixel ratio.
+6. A Bokeh ``Div`` whose text changes is rendered again and then makes the whole page compute its
+   layout (measuring every element: about 10 ms a change here, with a forced style recalculation).
+   For the page's live text (``theme.LiveHTML``, CSS class ``pl-live``) the new text is put in
+   place, and the layout is computed again only when the element's size changed (a
+   ``ResizeObserver``).
 """
 from __future__ import annotations
 
@@ -62,7 +67,8 @@ const patch = () => {
     return proto;
   };
   const done = () => window.__powerlens_css_lookup_skipped && window.__powerlens_same_css_kept &&
-                     window.__powerlens_font_size_kept && window.__powerlens_hatch_kept;
+                     window.__powerlens_font_size_kept && window.__powerlens_hatch_kept &&
+                     window.__powerlens_live_text;
   while (stack.length) {
     const view = stack.pop();
     if (view == null || seen.has(view)) continue;
@@ -86,6 +92,28 @@ const patch = () => {
                   return this.__powerlens_bfs; }});
         proto.__powerlens_font_size = true;
         window.__powerlens_font_size_kept = true;
+      }
+    }
+    if ('markup_el' in view && typeof view.process_tex === 'function') {   // a Div: live text in place
+      const proto = own(view, 'rerender');
+      if (proto && !proto.__powerlens_live) {
+        const rerender = proto.rerender;
+        proto.rerender = function () {
+          if (this.markup_el == null || this.model.render_as_text ||
+              !(this.model.css_classes ?? []).includes('pl-live')) return rerender.call(this);
+          const text = this.model.text;
+          this.markup_el.innerHTML = this.has_math_disabled() ? text : this.process_tex(text);
+          if (this.__powerlens_resize == null) {     // the page is laid out again only if the size changed
+            let first = true;
+            this.__powerlens_resize = new ResizeObserver(() => {
+              if (first) { first = false; return; }
+              this.invalidate_layout();
+            });
+            this.__powerlens_resize.observe(this.el);
+          }
+        };
+        proto.__powerlens_live = true;
+        window.__powerlens_live_text = true;
       }
     }
     for (const vis of Object.values(view.visuals ?? {})) {
@@ -139,7 +167,7 @@ if (!patch()) {
 
 
 def install(doc: Document) -> None:
-    """Install the browser speed-ups (notes 1, 2, 4, 5) on this document's page, once it is ready."""
+    """Install the browser speed-ups (notes 1, 2, 4, 5, 6) on this document's page, once it is ready."""
     doc.js_on_event("document_ready", CustomJS(code=SKIP_CSS_LOOKUP_JS))
 
 

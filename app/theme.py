@@ -197,7 +197,7 @@ class LiveHTML(pn.viewable.Viewer):
 
     def __init__(self, css_classes: list[str], margin=(4, 10)) -> None:
         super().__init__()
-        self.div = Div(text="", css_classes=css_classes, stylesheets=[PANE_CSS], sizing_mode="stretch_width",
+        self.div = Div(text="", css_classes=["pl-live", *css_classes], stylesheets=[PANE_CSS], sizing_mode="stretch_width",
                        margin=margin)
         self._pane = pn.pane.Bokeh(self.div, sizing_mode="stretch_width", margin=0)
 
