@@ -196,6 +196,35 @@ async def _send_at_once(self: Message, conn) -> int:
     return sum(len(data) for data, _ in frames)
 
 
+def _mark_retrieved(future) -> None:
+    if not future.cancelled():
+        future.exception()
+
+
+def _writes_looked_after(dispatch):
+    """Panel's ``dispatch_tornado`` whose write futures have their failure marked as seen.
+
+    Panel sends a held batch of changes (``pn.io.hold``) with its own ``dispatch_tornado`` and
+    awaits the writes later in a separate task; when a tab closes in between, that task can be
+    dropped with its session, and each failed write was then logged by asyncio as a traceback
+    ("Task exception was never retrieved"). Whoever awaits a write still gets its error.
+    """
+    if getattr(dispatch, "__powerlens_looked_after", False):
+        return dispatch
+
+    def looked_after(*args, **kwargs):
+        futures = dispatch(*args, **kwargs)
+        for future in futures:
+            future.add_done_callback(_mark_retrieved)
+        return futures
+    looked_after.__powerlens_looked_after = True
+    return looked_after
+
+
 def install_server() -> None:
-    """Send each Bokeh message's frames in one go (idempotent; for the server process)."""
+    """Send each Bokeh message's frames in one go; no failed write of a closed tab is logged as a
+    traceback (idempotent; for the server process)."""
+    import panel.io.document as panel_document
+
     Message.send = _send_at_once
+    panel_document.dispatch_tornado = _writes_looked_after(panel_document.dispatch_tornado)
