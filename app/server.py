@@ -490,6 +490,7 @@ def run(args: argparse.Namespace) -> int:
     print(f"Powerlens explorer: {url}  (press Ctrl-C to stop)", flush=True)
 
     loop = server.io_loop
+    speedups.quiet_closed_writes(loop.asyncio_loop)
 
     def _stop(*_):
         loop.asyncio_loop.call_soon_threadsafe(loop.stop)

@@ -43,13 +43,17 @@ from __future__ import annotations
 
 import asyncio
 import json
+import logging
 
 from bokeh.document import Document
 from bokeh.models import CustomJS
 from bokeh.protocol.message import Message
+from tornado.iostream import StreamClosedError
 from tornado.websocket import WebSocketClosedError, WebSocketHandler
 
-__all__ = ["SKIP_CSS_LOOKUP_JS", "VISUAL_CSS_VARIABLES", "install", "install_server"]
+__all__ = ["SKIP_CSS_LOOKUP_JS", "VISUAL_CSS_VARIABLES", "install", "install_server", "quiet_closed_writes"]
+
+log = logging.getLogger(__name__)
 
 #: the CSS variable prefixes BokehJS consults for visual properties (none is used here)
 VISUAL_CSS_VARIABLES = ("--bk-line-", "--bk-fill-", "--bk-hatch-", "--bk-text-", "--bk-background-",
@@ -196,35 +200,26 @@ async def _send_at_once(self: Message, conn) -> int:
     return sum(len(data) for data, _ in frames)
 
 
-def _mark_retrieved(future) -> None:
-    if not future.cancelled():
-        future.exception()
+def quiet_closed_writes(loop: asyncio.AbstractEventLoop) -> None:
+    """Let ``loop`` drop asyncio's report of a failed write to a closed websocket that nobody awaited.
 
-
-def _writes_looked_after(dispatch):
-    """Panel's ``dispatch_tornado`` whose write futures have their failure marked as seen.
-
-    Panel sends a held batch of changes (``pn.io.hold``) with its own ``dispatch_tornado`` and
-    awaits the writes later in a separate task; when a tab closes in between, that task can be
-    dropped with its session, and each failed write was then logged by asyncio as a traceback
-    ("Task exception was never retrieved"). Whoever awaits a write still gets its error.
+    Panel sends a held batch of changes (``pn.io.hold``) by writing every frame at once and awaits
+    the writes later in a task of its own. When a tab closes in between, or the server stops while
+    a page is being updated, the writes fail after their awaiting task has gone (the loop may have
+    stopped), and asyncio logged each one as "Task exception was never retrieved" with a
+    traceback. Bokeh itself treats a closed connection as a warning, not an error; here it is
+    logged at debug level. Every other report goes to the loop's default handler.
     """
-    if getattr(dispatch, "__powerlens_looked_after", False):
-        return dispatch
-
-    def looked_after(*args, **kwargs):
-        futures = dispatch(*args, **kwargs)
-        for future in futures:
-            future.add_done_callback(_mark_retrieved)
-        return futures
-    looked_after.__powerlens_looked_after = True
-    return looked_after
+    def handler(loop, context) -> None:
+        exc = context.get("exception")
+        if isinstance(exc, (WebSocketClosedError, StreamClosedError)) and \
+                "never retrieved" in str(context.get("message", "")):
+            log.debug("a write to a closed websocket failed: %s", exc)
+            return
+        loop.default_exception_handler(context)
+    loop.set_exception_handler(handler)
 
 
 def install_server() -> None:
-    """Send each Bokeh message's frames in one go; no failed write of a closed tab is logged as a
-    traceback (idempotent; for the server process)."""
-    import panel.io.document as panel_document
-
+    """Send each Bokeh message's frames in one go (idempotent; for the server process)."""
     Message.send = _send_at_once
-    panel_document.dispatch_tornado = _writes_looked_after(panel_document.dispatch_tornado)
