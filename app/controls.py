@@ -93,6 +93,7 @@ class NumberControl(pn.viewable.Viewer):
         self.key, self.integer, self.step = key, integer, step
         self.hard = hard
         self._on_change = on_change
+        self._sync_local = threading.local()
         self._syncing = False
         self._last_sent: Any = object()   # the value this control last handed to on_change
         self._sent: deque = deque(maxlen=16)   # (time, value) it handed on lately: a drag in flight
@@ -128,6 +129,20 @@ class NumberControl(pn.viewable.Viewer):
 
     def __panel__(self):
         return self._layout
+
+    @property
+    def _syncing(self) -> bool:
+        """True while this thread moves the widgets itself, so that their watchers stay quiet.
+
+        Per thread: the page moves the widgets on the server's event loop while the planner's next
+        change is handled in a worker thread, and a shared flag made that change be dropped (the
+        slider ended at 65 while the state stayed at 64, in a browser test with other tabs busy).
+        """
+        return getattr(self._sync_local, "on", False)
+
+    @_syncing.setter
+    def _syncing(self, on: bool) -> None:
+        self._sync_local.on = on
 
     # ---- appearance ---------------------------------------------------------
     def set_label(self, label: str, unit: str, doc: str = "") -> None:

@@ -499,3 +499,30 @@ def test_every_card_header_keeps_panels_header_class(app):
     for card in cards:
         if card.header_css_classes:
             assert "card-header" in card.header_css_classes, card.title or card.css_classes
+
+
+def test_a_change_in_one_thread_is_not_dropped_while_another_thread_moves_the_widgets():
+    """The page moves a control's widgets on the event loop while the planner's next slider change is
+    handled in a worker thread: the change must reach the state (it was dropped by a shared flag)."""
+    import threading
+    from app.controls import NumberControl
+    got = []
+    ctl = NumberControl("n", "sample size", "per group", (2, 200), 1, 60, got.append, integer=True)
+    moving, go_on = threading.Event(), threading.Event()
+
+    def page_moves_widgets():
+        ctl._syncing = True          # as show() does on the event loop
+        moving.set()
+        go_on.wait(5)
+        ctl._syncing = False
+    loop = threading.Thread(target=page_moves_widgets)
+    loop.start()
+    moving.wait(5)
+    ctl.slider.value = 65            # the planner's change, handled meanwhile in this thread
+    go_on.set()
+    loop.join(5)
+    assert got == [65]
+    ctl._syncing = True              # in its own thread the flag still keeps the watchers quiet
+    ctl.slider.value = 66
+    ctl._syncing = False
+    assert got == [65]
