@@ -1,4 +1,4 @@
-"""Measured speed-ups for redrawing the figures: five in the browser (BokehJS 3.9), one on the server.
+"""Measured speed-ups for redrawing the figures: six in the browser (BokehJS 3.9), one on the server.
 
 1. BokehJS lets every line, fill and text property of a figure be overridden by a CSS variable
    (``--bk-line-color`` and so on). To find out whether one is set, it calls
@@ -38,6 +38,11 @@ the browser test ``test_visual_css_lookup_is_skipped`` checks that it is in plac
    For the page's live text (``theme.LiveHTML``, CSS class ``pl-live``) the new text is put in
    place, and the layout is computed again only when the element's size changed (a
    ``ResizeObserver``).
+7. A slider sends its ``value`` while it moves and, at each key press and at the end of a drag,
+   a second message for ``value_throttled``, which the server parses, applies and answers in
+   the same moments as the change itself. The page never reads ``value_throttled``
+   (``controls._LiveOnly``), so the slider now sets only ``value`` (unchanged by then, so nothing
+   is sent).
 """
 from __future__ import annotations
 
@@ -72,7 +77,7 @@ const patch = () => {
   };
   const done = () => window.__powerlens_css_lookup_skipped && window.__powerlens_same_css_kept &&
                      window.__powerlens_font_size_kept && window.__powerlens_hatch_kept &&
-                     window.__powerlens_live_text;
+                     window.__powerlens_live_text && window.__powerlens_one_message;
   while (stack.length) {
     const view = stack.pop();
     if (view == null || seen.has(view)) continue;
@@ -96,6 +101,14 @@ const patch = () => {
                   return this.__powerlens_bfs; }});
         proto.__powerlens_font_size = true;
         window.__powerlens_font_size_kept = true;
+      }
+    }
+    if (typeof view._calc_from === 'function' && typeof view._slide === 'function') {   // a slider
+      const proto = own(view, '_change');
+      if (proto && !proto.__powerlens_one) {
+        proto._change = function (values) { this.model.value = this._calc_from(values); };
+        proto.__powerlens_one = true;
+        window.__powerlens_one_message = true;
       }
     }
     if ('markup_el' in view && typeof view.process_tex === 'function') {   // a Div: live text in place
@@ -171,7 +184,7 @@ if (!patch()) {
 
 
 def install(doc: Document) -> None:
-    """Install the browser speed-ups (notes 1, 2, 4, 5, 6) on this document's page, once it is ready."""
+    """Install the browser speed-ups (notes 1, 2, 4, 5, 6, 7) on this document's page, once it is ready."""
     doc.js_on_event("document_ready", CustomJS(code=SKIP_CSS_LOOKUP_JS))
 
 

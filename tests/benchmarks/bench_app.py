@@ -72,9 +72,18 @@ def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--changes", type=int, default=60)
     ap.add_argument("--sessions", type=int, default=10)
+    ap.add_argument("--no-bytecode", action="store_true",
+                    help="do not compile app/ and powercore/ to bytecode first (a first start on a machine that "
+                         "never ran the server, or one that sets PYTHONDONTWRITEBYTECODE as this sandbox does)")
     ap.add_argument("--screenshot", metavar="PNG", help="also save a 1600×1540 picture of the page at start "
                     "(the README's assets/explorer.png is made this way)")
     args = ap.parse_args()
+    root = Path(__file__).resolve().parents[2]
+    if not args.no_bytecode:     # Python caches bytecode after a first start; PYTHONDONTWRITEBYTECODE stops that
+        import compileall
+        for package in ("app", "powercore"):
+            compileall.compile_dir(str(root / package), quiet=1)
+        print("bytecode of app/ and powercore/ compiled first (as after any earlier start; --no-bytecode to skip)")
     with sync_playwright() as p:
         browser = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
         t0 = time.perf_counter()
