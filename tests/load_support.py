@@ -62,6 +62,34 @@ def expected_power_text(effect: float) -> str:
     return num(pc.evaluate(demo(params={**demo().params, "delta": effect})).power, 4)
 
 
+# The page's websocket, timed on the page clock: when a change leaves (the first message sent after
+# ``sent`` is cleared) and when the server's patch with the new views has fully arrived (its last
+# frame). Their difference is the server's part of an update plus the wire, without the drawing.
+SOCKET_TIMES_JS = """(() => {
+  const Native = window.WebSocket;
+  window.__sock = {sent: null, patch: null, frames: 0};
+  window.WebSocket = function (...args) {
+    const ws = new Native(...args);
+    ws.addEventListener('message', (e) => {
+      const S = window.__sock;
+      if (S.sent === null) return;
+      if (S.patch !== null) return;                        // the first patch after the change only
+      if (typeof e.data === 'string' && e.data.includes('"msgtype": "PATCH-DOC"')) {
+        const m = /"num_buffers": (\d+)/.exec(e.data);
+        S.frames = 2 + 2 * (m ? Number(m[1]) : 0);      // metadata, content, then ref + bytes per buffer
+        return;
+      }
+      if (S.frames > 0 && --S.frames === 0) S.patch = performance.now();
+    });
+    const send = ws.send.bind(ws);
+    ws.send = (data) => { if (window.__sock.sent === null) window.__sock.sent = performance.now(); return send(data); };
+    return ws;
+  };
+  window.WebSocket.prototype = Native.prototype;
+  Object.assign(window.WebSocket, Native);
+})();"""
+
+
 class LoadSession:
     """One browser context and page on the explorer; records console errors and requests off 127.0.0.1."""
 
@@ -70,6 +98,7 @@ class LoadSession:
         self.errors: list[str] = []
         self.external: list[str] = []
         self.latencies: list[tuple[float, float]] = []   # (event-loop time of the press in s, latency in ms)
+        self.round_trips: list[float] = []   # ms from the change leaving the page to the server's patch arriving
         self.context = self.page = None
 
     async def _guard(self, route) -> None:
@@ -82,6 +111,7 @@ class LoadSession:
     async def open(self, timeout: float = 120_000) -> None:
         self.context = await self.browser.new_context(viewport={"width": 1400, "height": 1000})
         await self.context.route("**/*", self._guard)
+        await self.context.add_init_script(SOCKET_TIMES_JS)
         self.page = page = await self.context.new_page()
         page.on("console", lambda m: self.errors.append(f"{self.name}: {m.text}") if m.type == "error" else None)
         page.on("pageerror", lambda e: self.errors.append(f"{self.name}: pageerror: {e}"))
@@ -100,10 +130,13 @@ class LoadSession:
     async def change(self, key: str, timeout: float = 30_000) -> float:
         """Press one arrow key on the effect slider; the latency in ms until all three views are redrawn."""
         pressed = asyncio.get_running_loop().time()
+        await self.page.evaluate("() => { window.__sock.sent = null; window.__sock.patch = null; }")
         await self.page.keyboard.press(key)
         await self.page.wait_for_function(DONE_JS, timeout=timeout, polling=10)
-        ms = await self.page.evaluate(ELAPSED_JS)
+        ms, trip = await self.page.evaluate(f"() => [({ELAPSED_JS})(), __sock.patch - __sock.sent]")
         self.latencies.append((pressed, ms))
+        if trip is not None and trip > 0:
+            self.round_trips.append(trip)
         return ms
 
     async def effect(self) -> float:

@@ -1,6 +1,6 @@
 """Many sessions at once in headless Chromium; prints figures (not a pytest test).
 
-    python3 tests/benchmarks/bench_load.py [--sessions 20] [--changes 50] [--cycles 200] [--batch 5]
+    python3 tests/benchmarks/bench_load.py [--sessions 20] [--changes 50] [--think 2000] [--cycles 200] [--batch 5]
 
 One Chromium, one context and page per session, all driven from one thread with Playwright's async
 API (tests/load_support.py). The server runs with POWERLENS_DEBUG_STATS=1 for its counts.
@@ -10,7 +10,10 @@ API (tests/load_support.py). The server runs with POWERLENS_DEBUG_STATS=1 for it
    different for every session; at the end each slider must sit at its own effect and each readout
    must show powercore's power for that effect.
 3. Update latency: keydown to the last of the three figures redrawn (page clock), over every change
-   of every session after its first three: p50, p95, max (budget p95 < 250 ms).
+   of every session after its first three: p50, p95, max (budget p95 < 250 ms). Each session pauses
+   ``--think`` ms (times a random 0.5-1.5) after each change, as people adjust and look; ``--think 0``
+   drives all at once flat out, which on two cores measures mostly the twenty browsers drawing.
+   Also the server's part: the change leaving the page to the server's patch arriving.
 4. Simulation in one session: session 0 runs the page's confirm-by-simulation on a large run
    (log-rank, 1,000 events, 100,000 replicates) while the others keep changing. Stall measure:
    the rise of the other sessions' p95 latency over their p95 in step 3, and their longest single
@@ -23,6 +26,7 @@ from __future__ import annotations
 
 import argparse
 import asyncio
+import random
 import statistics
 import sys
 import time
@@ -105,8 +109,11 @@ async def run(args) -> int:
             nets = [2 * i - n for i in range(n)]          # -20, -18, ..., 18: a different end for each
 
             async def drive(s, net, seed):
+                pace = random.Random(seed)
+                await asyncio.sleep(pace.uniform(0, args.think / 1000))     # people do not start together
                 for key in key_plan(net, args.changes, seed):
                     await s.change(key)
+                    await asyncio.sleep(args.think / 1000 * pace.uniform(0.5, 1.5))
 
             t0 = time.perf_counter()
             await asyncio.gather(*(drive(s, net, i) for i, (s, net) in enumerate(zip(sessions, nets))))
@@ -124,8 +131,14 @@ async def run(args) -> int:
             print(f"isolation: {own}/{n} sessions end at their own effect (net moves {nets[0]}..{nets[-1]} "
                   f"steps of {EFFECT_STEP}) with powercore's power in the readout")
             base = [ms for s in sessions for _, ms in s.latencies[WARMUP:]]
-            print(f"update latency, {n} sessions x {args.changes} changes at once ({wall:.1f} s wall):")
+            trips = [ms for s in sessions for ms in s.round_trips[WARMUP:]]
+            pacing = (f"each session waits {args.think / 1000:g} s x U(0.5, 1.5) after each change: "
+                      f"{n * args.changes / wall:.1f} changes/s in all" if args.think else
+                      f"flat out, no pause between changes: {n * args.changes / wall:.1f} changes/s")
+            print(f"update latency, {n} sessions x {args.changes} changes ({wall:.1f} s wall; {pacing}):")
             print(f"  all sessions     {summary(base)}   budget p95 < 250 ms")
+            if trips:
+                print(f"  of which server  {summary(trips)}   (change sent -> server's patch received, page clock)")
             others_base = [ms for s in sessions[1:] for _, ms in s.latencies[WARMUP:]]
 
             # ---- a simulation in session 0 while the others change ------------------------------
@@ -137,10 +150,12 @@ async def run(args) -> int:
             sim_start = loop.time()
             print("simulation running in session 0 (log-rank, 1,000 events, 100,000 replicates)")
             rounds = 0
+            pace = random.Random(99)
             while await simulation_running(sim) and rounds < args.sim_rounds:
                 await asyncio.gather(*(s.change("ArrowRight" if rounds % 2 == 0 else "ArrowLeft")
                                        for s in sessions[1:]))
                 rounds += 1
+                await asyncio.sleep(args.think / 1000 * pace.uniform(0.5, 1.5))
             still = await simulation_running(sim)
             sim_end = loop.time()
             if still:
@@ -196,6 +211,10 @@ def main() -> int:
     ap.add_argument("--sessions", type=int, default=20)
     ap.add_argument("--changes", type=int, default=50)
     ap.add_argument("--sim-rounds", type=int, default=20, help="rounds of changes while simulating (default 20)")
+    ap.add_argument("--think", type=float, default=2000,
+                    help="ms each session waits after a change, times U(0.5, 1.5) (default 2000: twenty people "
+                         "each adjusting and looking; all twenty browsers share this machine's two cores, which a "
+                         "meeting's laptops do not); 0 drives every session flat out")
     ap.add_argument("--cycles", type=int, default=200)
     ap.add_argument("--batch", type=int, default=5, help="sessions opened at once (default 5)")
     args = ap.parse_args()
