@@ -75,7 +75,7 @@ SOCKET_TIMES_JS = """(() => {
       if (S.sent === null) return;
       if (S.patch !== null) return;                        // the first patch after the change only
       if (typeof e.data === 'string' && e.data.includes('"msgtype": "PATCH-DOC"')) {
-        const m = /"num_buffers": (\d+)/.exec(e.data);
+        const m = /"num_buffers": (\\d+)/.exec(e.data);
         S.frames = 2 + 2 * (m ? Number(m[1]) : 0);      // metadata, content, then ref + bytes per buffer
         return;
       }
