@@ -62,6 +62,10 @@ async def start_simulation(s: LoadSession) -> None:
     page = s.page
     d = pc.get_design("logrank-events")
     await page.locator(".pl-design select").select_option(label=d.title)
+    # the switch must have reached the page before n is typed (typing at once can lose the value)
+    await page.locator(".pl-control-effect .pl-label").filter(has_text=d.param(d.effect).label).wait_for(
+        timeout=30_000)
+    await page.wait_for_timeout(1000)
     want = expected_for(pc.Scenario(design=d.id, params=d.defaults(), n=1000))
     box = page.locator(".pl-box-n input")
     await box.fill("1000")
