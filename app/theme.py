@@ -10,8 +10,7 @@ import panel as pn
 from bokeh.models import Div
 
 __all__ = ["BAND", "CSS", "FONT", "INK", "PALETTE", "PIN_STYLES", "LiveHTML", "button_look", "fill_when_opened",
-           "keep_shown", "label_kw",
-           "style_figure"]
+           "keep_shown", "label_kw", "style_figure"]
 
 PALETTE = {
     "null": "#6E6E6E",         # neutral grey: the null hypothesis
@@ -199,8 +198,7 @@ class LiveHTML(pn.viewable.Viewer):
     def __init__(self, css_classes: list[str], margin=(4, 10)) -> None:
         super().__init__()
         self.div = Div(text="", css_classes=["pl-live", *css_classes], stylesheets=[PANE_CSS],
-                       sizing_mode="stretch_width",
-                       margin=margin)
+                       sizing_mode="stretch_width", margin=margin)
         self._pane = pn.pane.Bokeh(self.div, sizing_mode="stretch_width", margin=0)
 
     def __panel__(self):

@@ -397,19 +397,17 @@ def _send_with(closed: bool, refuse_from: int | None = None):
 
     async def main():
         asyncio.get_running_loop().set_exception_handler(lambda loop, ctx: unretrieved.append(ctx))
-        with mock.patch.object(WebSocketHandler, "write_message", _Socket.write_message), \
-                mock.patch.object(speedups, "WebSocketHandler", type("H", (WebSocketHandler,), {})):
-            conn = object.__new__(speedups.WebSocketHandler)
+        with mock.patch.object(WebSocketHandler, "write_message", _Socket.write_message):
+            conn = object.__new__(WebSocketHandler)     # a handler without a connection, sock's state in it
             conn.__dict__.update(vars(sock))
-            conn.frames = sock.frames
             try:
-                return await speedups._send_at_once(message, conn), message
+                return await speedups._send_at_once(message, conn)
             except Exception as exc:       # noqa: BLE001 - the error Bokeh's connection handles
-                return exc, message
+                return exc
             finally:
                 await asyncio.sleep(0.01)
                 gc.collect()
-    sent, message = asyncio.run(main())
+    sent = asyncio.run(main())
     return sent, message, sock.frames, unretrieved
 
 
