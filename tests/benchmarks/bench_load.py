@@ -15,7 +15,8 @@ API (tests/load_support.py). The server runs with POWERLENS_DEBUG_STATS=1 for it
    drives all at once flat out, which on two cores measures mostly the twenty browsers drawing.
    Also the server's part: the change leaving the page to the server's patch arriving.
 4. Simulation in one session: session 0 runs the page's confirm-by-simulation on a large run
-   (log-rank, 1,000 events, 100,000 replicates) while the others keep changing. Stall measure:
+   (log-rank, 1,000 events, 100,000 replicates) while the others keep changing, each at the pace
+   of step 3 (pressing all at once would measure a burst of 19 changes, not the simulation). Stall measure:
    the rise of the other sessions' p95 latency over their p95 in step 3, and their longest single
    update, for the changes pressed while the simulation was running (budget: p95 rise < 150 ms).
 5. Open and close ``--cycles`` sessions, ``--batch`` at a time: server RSS once a first batch has
@@ -90,6 +91,17 @@ async def simulation_running(s: LoadSession) -> bool:
     return await s.page.locator(".pl-sim-cancel button").is_enabled()
 
 
+async def drive(s: LoadSession, keys: list[str], seed: int, think_ms: float, stop=None) -> None:
+    """Press ``keys`` in session ``s``, pausing ``think_ms`` x U(0.5, 1.5) after each; ``stop()`` ends early."""
+    pace = random.Random(seed)
+    await asyncio.sleep(pace.uniform(0, think_ms / 1000))     # people do not start together
+    for key in keys:
+        if stop is not None and stop():
+            return
+        await s.change(key)
+        await asyncio.sleep(think_ms / 1000 * pace.uniform(0.5, 1.5))
+
+
 async def run(args) -> int:
     password = "bench-load-pass"   # invented
     pw_file = Path("/tmp") / f"powerlens-bench-load-{int(time.time())}.pw"
@@ -112,15 +124,9 @@ async def run(args) -> int:
             await asyncio.gather(*(s.hook() for s in sessions))
             nets = [2 * i - n for i in range(n)]          # -20, -18, ..., 18: a different end for each
 
-            async def drive(s, net, seed):
-                pace = random.Random(seed)
-                await asyncio.sleep(pace.uniform(0, args.think / 1000))     # people do not start together
-                for key in key_plan(net, args.changes, seed):
-                    await s.change(key)
-                    await asyncio.sleep(args.think / 1000 * pace.uniform(0.5, 1.5))
-
             t0 = time.perf_counter()
-            await asyncio.gather(*(drive(s, net, i) for i, (s, net) in enumerate(zip(sessions, nets))))
+            await asyncio.gather(*(drive(s, key_plan(net, args.changes, i), i, args.think)
+                                   for i, (s, net) in enumerate(zip(sessions, nets))))
             wall = time.perf_counter() - t0
             own = 0
             for i, (s, s0, net) in enumerate(zip(sessions, start, nets)):
@@ -153,13 +159,22 @@ async def run(args) -> int:
             loop = asyncio.get_running_loop()
             sim_start = loop.time()
             print("simulation running in session 0 (log-rank, 1,000 events, 100,000 replicates)")
-            rounds = 0
-            pace = random.Random(99)
-            while await simulation_running(sim) and rounds < args.sim_rounds:
-                await asyncio.gather(*(s.change("ArrowRight" if rounds % 2 == 0 else "ArrowLeft")
-                                       for s in sessions[1:]))
-                rounds += 1
-                await asyncio.sleep(args.think / 1000 * pace.uniform(0.5, 1.5))
+            running = True
+
+            async def watch():
+                nonlocal running
+                while running:
+                    running = await simulation_running(sim)
+                    await asyncio.sleep(0.25)
+
+            watcher = asyncio.create_task(watch())
+            # the same pacing as step 3 (each person on their own clock), so that only the simulation differs
+            keys = ["ArrowRight", "ArrowLeft"] * (args.sim_rounds // 2) + ["ArrowRight"] * (args.sim_rounds % 2)
+            await asyncio.gather(*(drive(s, keys, 100 + i, args.think, lambda: not running)
+                                   for i, s in enumerate(sessions[1:])))
+            rounds = min(len(s.latencies) for s in sessions[1:])
+            running = False
+            await watcher
             still = await simulation_running(sim)
             sim_end = loop.time()
             if still:
@@ -170,7 +185,7 @@ async def run(args) -> int:
                 print(f"  other sessions, before           {summary(others_base)}")
                 print(f"  other sessions, while simulating {summary(during)}")
                 print(f"  stall measure: p95 rise {rise:+.1f} ms (budget < 150 ms); longest update "
-                      f"{max(during):.1f} ms; {rounds} rounds of changes in {sim_end - sim_start:.1f} s of "
+                      f"{max(during):.1f} ms; at least {rounds} changes a session in {sim_end - sim_start:.1f} s of "
                       f"simulation ({'cancelled after the rounds' if still else 'it finished first'})")
             else:
                 print("  no change was pressed while the simulation ran")
@@ -214,7 +229,7 @@ def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sessions", type=int, default=20)
     ap.add_argument("--changes", type=int, default=50)
-    ap.add_argument("--sim-rounds", type=int, default=20, help="rounds of changes while simulating (default 20)")
+    ap.add_argument("--sim-rounds", type=int, default=20, help="most changes a session makes while the simulation runs (default 20)")
     ap.add_argument("--think", type=float, default=2000,
                     help="ms each session waits after a change, times U(0.5, 1.5) (default 2000: twenty people "
                          "each adjusting and looking; all twenty browsers share this machine's two cores, which a "
