@@ -97,6 +97,7 @@ class NumberControl(pn.viewable.Viewer):
         self._syncing = False
         self._last_sent: Any = object()   # the value this control last handed to on_change
         self._sent: deque = deque(maxlen=16)   # (time, value) it handed on lately: a drag in flight
+        self._box_shown: tuple[float, Any] | None = None   # (time, value) the server last put in the box
         self._move_lock = threading.Lock()
         self._label = pn.pane.HTML("", stylesheets=[PANE_CSS], margin=(6, 10, 0, 10),
                                    css_classes=["pl-label-row"])
@@ -175,13 +176,14 @@ class NumberControl(pn.viewable.Viewer):
         self._syncing = True
         try:
             bv = _box_value(value, self.integer)
-            if self.box.value != bv and not _same(self.box.value, bv):
+            if self.box.value != bv and not _same(self.box.value, bv) and not _arriving(self.box):
                 self.box.value = bv
+                self._box_shown = (time.monotonic(), bv)
             # the planner's own values of the last moments are echoes: the hand may already be further on
             now = time.monotonic()
             echo = _same(value, self._last_sent) or any(
                 _same(value, sent) for t, sent in self._sent if now - t < ECHO_SECONDS)
-            if not echo and _is_number(value) and self.hard[0] < value < self.hard[1]:
+            if not echo and _is_number(value) and self.hard[0] < value < self.hard[1] and not _arriving(self.slider):
                 self._fit_slider(value)
                 sv = _cast(min(max(value, self.slider.start), self.slider.end), self.integer)
                 if not _same(self.slider.value, sv, self.step / 2):
@@ -282,6 +284,40 @@ class NumberControl(pn.viewable.Viewer):
             v = int(v)
         self._last_sent = v
         self._on_change(v)
+        shown = self._box_shown
+        if shown is not None and time.monotonic() - shown[0] < ECHO_SECONDS and not _same(shown[1], event.new):
+            self._send_box_again()
+
+    def _send_box_again(self) -> None:
+        """Send the box's value to the page again, although the server's copy has not changed.
+
+        The server had just put another value in the box (a design switch showing its default n)
+        while the planner typed: the page showed the server's value over the typed one, and the
+        typed one, arriving next, changed nothing on the server that would be sent back. The box
+        then showed 200 while the views were for the 1,000 typed (every time, in headless Chromium,
+        when n was typed at once after choosing another design).
+        """
+        doc = pn.state.curdoc
+        if doc is None or doc.session_context is None:
+            return
+        models = [m for m, _ in list(self.box._models.values())]
+
+        def send() -> None:
+            for m in models:
+                if m.document is doc:
+                    doc.callbacks.notify_change(m, "value", m.value, m.value, callback_invoker=lambda: None)
+
+        doc.add_next_tick_callback(send)
+
+
+def _arriving(widget) -> bool:
+    """True while a value the planner gave this widget has reached the server and waits to be handled.
+
+    Panel lets the server's own change win over such a value and drops it (a design switch
+    showing its default n over the n typed just after: the typed value was lost in 1 of 8 tries).
+    The page then leaves the widget alone: handling the planner's value shows the state again.
+    """
+    return "value" in getattr(widget, "_events", {})
 
 
 def _choice_options(d: Design, spec: ParamSpec) -> dict[str, str]:
