@@ -46,6 +46,7 @@ class SimulationPanel(pn.viewable.Viewer):
         self._cancel = threading.Event()
         self._thread: threading.Thread | None = None
         self._lock = threading.Lock()
+        self._busy = False            # from a start until its result (or cancel, or error) is shown
         self._last_progress = 0.0
         self.result = None            # the last finished SimulationResult (not cancelled)
         self.scenario: Scenario | None = None
@@ -77,7 +78,12 @@ class SimulationPanel(pn.viewable.Viewer):
 
     @property
     def running(self) -> bool:
-        return self._thread is not None and self._thread.is_alive()
+        """A run was started and its end is not shown yet.
+
+        Not the thread's life: the thread lives on for a moment after handing its result to the
+        page, and a Start clicked in that moment (the button is enabled again) was ignored.
+        """
+        return self._busy
 
     def current(self) -> dict | None:
         """The last result as a dict, if it belongs to the scenario behind the views (for the record)."""
@@ -89,8 +95,10 @@ class SimulationPanel(pn.viewable.Viewer):
     # ---- running -----------------------------------------------------------------------------
     def run(self) -> None:
         snap = self.state.snapshot
-        if snap is None or self.running:
-            return
+        with self._lock:
+            if snap is None or self._busy:
+                return
+            self._busy = True
         scenario = snap.result.solved   # the scenario with its unknown filled in
         reps = REPS[self.reps.value]
         doc = pn.state.curdoc if pn.state.curdoc is not None and pn.state.curdoc.session_context else None
@@ -140,6 +148,7 @@ class SimulationPanel(pn.viewable.Viewer):
             self.pane.object = text
 
     def _finished(self, res, scenario: Scenario, solved: Scenario, error: str | None) -> None:
+        self._busy = False
         if error is not None:
             self._set(False, True, 0, False, f'<p class="pl-stale" role="alert">{html.escape(error)}</p>')
             return
