@@ -24,7 +24,7 @@ from powercore.spec import ParamSpec
 
 from .state import ExplorerState, directions
 from .text import DIRECTION_LABELS, FIND_LABELS, MULTIPLICITY_LABELS, effect_unit, effect_value, num, param_unit, value_unit
-from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw, show_message
+from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw, page_value, show_message
 
 __all__ = ["LIVE_DEBOUNCE_MS", "WATCHED", "NumberControl", "ScenarioControls", "nice_ceil"]
 
@@ -263,11 +263,8 @@ class NumberControl(pn.viewable.Viewer):
         in either order, so the older one could win. The slider's Bokeh model is set on the
         server's event loop in the order the changes arrive, so it holds the newest value.
         """
-        for model, _ in list(self.slider._models.values()):
-            v = getattr(model, "value", None)
-            if _is_number(v):
-                return v
-        return fallback
+        v = page_value(self.slider)
+        return v if _is_number(v) else fallback
 
     def _box_typed(self, event) -> None:
         if self._syncing:

@@ -19,7 +19,7 @@ from powercore.simulate import simulate
 
 from .state import ExplorerState
 from .text import num
-from .theme import PANE_CSS, WIDGET_CSS, button_look
+from .theme import PANE_CSS, WIDGET_CSS, button_look, page_value
 
 __all__ = ["REPS", "SimulationPanel", "same_but_n"]
 
@@ -44,7 +44,6 @@ class SimulationPanel(pn.viewable.Viewer):
         self._on_result = on_result or (lambda: None)
         self._seed = seed
         self._cancel = threading.Event()
-        self._thread: threading.Thread | None = None
         self._lock = threading.Lock()
         self._busy = False            # from a start until its result (or cancel, or error) is shown
         self._last_progress = 0.0
@@ -132,22 +131,19 @@ class SimulationPanel(pn.viewable.Viewer):
         if doc is None:
             work()
         else:
-            self._thread = threading.Thread(target=work, name="powerlens-simulation", daemon=True)
-            self._thread.start()
+            threading.Thread(target=work, name="powerlens-simulation", daemon=True).start()
 
     def _chosen_reps(self) -> int:
         """The replicates chosen last in the page.
 
-        A click on Start is handed to a worker thread at once, a choice of replicates only after
-        its 50 ms debounce: choosing 1,000 and clicking Start quickly ran the replicates chosen
-        before (100,000, in the browser test, twice in full suites). The widget's Bokeh model is set
-        on the server's event loop as each message arrives, so it holds the newest choice.
+        A click on Start is handled at once, a choice of replicates only after its 50 ms debounce:
+        choosing 1,000 and clicking Start quickly ran the replicates chosen before (100,000, in
+        the browser test, twice in full suites); ``theme.page_value`` holds the newest choice.
         """
         labels = list(REPS)
-        for model, _ in list(self.reps._models.values()):
-            active = getattr(model, "active", None)
-            if isinstance(active, int) and 0 <= active < len(labels):
-                return REPS[labels[active]]
+        active = page_value(self.reps, "active")
+        if isinstance(active, int) and 0 <= active < len(labels):
+            return REPS[labels[active]]
         return REPS[self.reps.value]
 
     def _set(self, start_disabled=None, cancel_disabled=None, progress=None, visible=None, text=None) -> None:

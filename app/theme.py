@@ -10,7 +10,7 @@ import panel as pn
 from bokeh.models import Div
 
 __all__ = ["BAND", "CSS", "FONT", "INK", "PALETTE", "PIN_STYLES", "LiveHTML", "button_look", "fill_when_opened",
-           "keep_shown", "label_kw", "style_figure"]
+           "keep_shown", "label_kw", "page_value", "style_figure"]
 
 PALETTE = {
     "null": "#6E6E6E",         # neutral grey: the null hypothesis
@@ -212,6 +212,20 @@ class LiveHTML(pn.viewable.Viewer):
     def object(self, text: str) -> None:
         if self.div.text != text:
             self.div.text = text
+
+
+def page_value(widget, prop: str = "value"):
+    """A widget's property as the page sent it last (None before any model exists).
+
+    Panel hands each change to a worker thread (after its debounce, a click at once), so
+    changes can be handled out of order; the widget's Bokeh model is set on the server's event
+    loop in the order the page's messages arrive, so it holds the newest.
+    """
+    for model, _ in list(widget._models.values()):
+        v = getattr(model, prop, None)
+        if v is not None:
+            return v
+    return None
 
 
 def show_message(pane, text: str | None) -> None:
