@@ -390,7 +390,8 @@ def _send_with(closed: bool, refuse_from: int | None = None):
     doc.add_root(source)
     events = []
     doc.on_change(lambda e: events.append(e))
-    source.data = {"x": np.arange(4.0), "y": np.ones(4), "z": np.zeros(4)}
+    n = speedups.INLINE_BYTES // 8 + 1       # arrays too large to travel inline: binary buffers either way
+    source.data = {"x": np.arange(n, dtype=float), "y": np.ones(n), "z": np.zeros(n)}
     message = Protocol().create("PATCH-DOC", events)
     sock = _Socket(closed, refuse_from)
     unretrieved = []
@@ -420,6 +421,43 @@ def test_server_send_writes_every_frame_in_order():
     assert [binary for _, binary in frames[3:]] == [False, True] * len(message.buffers)
     assert sent == sum(len(data) for data, _ in frames)
     assert unretrieved == []
+
+
+def test_small_arrays_travel_inside_the_message():
+    """speedups item 8: an array of at most INLINE_BYTES goes in the message's JSON (gzip + base64, as Bokeh
+    embeds arrays in files), a larger one stays a binary buffer; Bokeh's own reader gets both back exactly."""
+    import base64
+    import gzip
+    import json
+    from unittest import mock
+    import numpy as np
+    from bokeh.core.serialization import Deserializer, Serializer
+    from bokeh.document import Document
+    from bokeh.models import ColumnDataSource
+    from bokeh.protocol import Protocol
+    from app import speedups
+
+    doc = Document()
+    small_src, large_src = ColumnDataSource({"y": np.zeros(2)}), ColumnDataSource({"y": np.zeros(2)})
+    doc.add_root(small_src)
+    doc.add_root(large_src)
+    events = []
+    doc.on_change(lambda e: events.append(e))
+    small = np.linspace(-3.0, 3.0, speedups.INLINE_BYTES // 8)          # exactly at the limit
+    large = np.linspace(0.0, 1.0, speedups.INLINE_BYTES // 8 + 1)
+    small_src.data = {"y": small}
+    large_src.data = {"y": large}
+    with mock.patch.object(Serializer, "_encode_bytes", speedups._encode_small_bytes_inline):
+        message = Protocol().create("PATCH-DOC", events)
+    assert len(message.buffers) == 1 and message.buffers[0].to_bytes() == large.tobytes()
+    small_event, large_event = json.loads(message.content_json)["events"]
+    inline = dict(small_event["data"]["entries"])["y"]["array"]["data"]
+    assert isinstance(inline, str)
+    assert gzip.decompress(base64.b64decode(inline)) == small.tobytes()
+    assert isinstance(dict(large_event["data"]["entries"])["y"]["array"]["data"], dict)   # a reference to the buffer
+    reader = Deserializer(references=[small_src, large_src])
+    got = [reader.decode(ev["data"], message.buffers)["y"] for ev in (small_event, large_event)]
+    assert np.array_equal(got[0], small) and np.array_equal(got[1], large)
 
 
 def test_server_send_to_a_closed_socket_is_one_handled_error():

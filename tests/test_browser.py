@@ -96,6 +96,26 @@ def test_keyboard_drag_and_typing(open_page):
     expect_power(page, demo(n=65, params={"delta": 13.5}))
 
 
+def test_views_hold_the_servers_arrays_exactly(open_page):
+    """The arrays reach the page bit for bit (small ones travel inside the message as base64, app/speedups.py
+    item 8): the density curves equal a session rendered without a browser, at the start and after a change."""
+    from app_support import render
+    from app.explorer import Explorer
+    page = open_page().page
+    offline = Explorer()
+    render(offline)
+    for column in ("x", "null", "alt"):
+        assert js_column(page, "density-curve", column) == list(offline.densities.src_curve.data[column])
+    type_into(page, "effect", "27.5")
+    expect_power(page, demo(params={"delta": 27.5}))
+    offline.state.set_value("delta", 27.5)
+    want = list(offline.densities.src_curve.data["alt"])
+    page.wait_for_function(f"() => Bokeh.documents[0].get_model_by_name('density-curve').data.alt[0] === {float(want[0])!r}")
+    for column in ("x", "null", "alt"):
+        assert js_column(page, "density-curve", column) == list(offline.densities.src_curve.data[column])
+    assert page.evaluate("() => Bokeh.documents[0].get_model_by_name('density-curve').data.alt instanceof Float64Array")
+
+
 def test_mouse_drag_ends_on_the_released_value(open_page):
     """A fast mouse drag of the effect slider (each move sent at once): the views end on the released value."""
     page = open_page().page
