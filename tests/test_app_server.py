@@ -60,6 +60,16 @@ def test_page_served_on_loopback(served):
     assert status == 200
 
 
+def test_page_loads_only_the_bundles_it_uses(served):
+    """BokehJS's WebGL bundle, which no view uses, is not loaded (server.BOKEH_BUNDLES); the others are."""
+    import re
+    from app.server import BOKEH_BUNDLES
+    _, body = get(served.port)
+    scripts = set(re.findall(rb'src="[^"]*static/js/([a-z-]+)\.min\.js', body))
+    assert b"bokeh-gl" not in scripts
+    assert {b"bokeh", b"bokeh-widgets", b"bokeh-tables"} <= scripts <= {b.encode() for b in BOKEH_BUNDLES}
+
+
 @pytest.mark.parametrize("path", ["/", "/static/js/bokeh.min.js", "/ws"])
 def test_foreign_host_header_refused(served, path):
     """A request naming another host (DNS rebinding) is refused with 403, websocket included."""
