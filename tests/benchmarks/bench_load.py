@@ -112,7 +112,10 @@ async def run(args) -> int:
     ok = True
     try:
         async with async_playwright() as p:
-            browser = await launch(p)
+            browser = await launch(p, nice=args.nice_browsers)
+            if args.nice_browsers:
+                print(f"Chromium runs at nice {args.nice_browsers}: the server has the cores first (a stand-in "
+                      f"for browsers on other machines)")
             n = args.sessions
             sessions = [LoadSession(browser, srv.url, password, name=f"session {i}") for i in range(n)]
             t0 = time.perf_counter()
@@ -234,6 +237,9 @@ def main() -> int:
                     help="ms each session waits after a change, times U(0.5, 1.5) (default 2000: twenty people "
                          "each adjusting and looking; all twenty browsers share this machine's two cores, which a "
                          "meeting's laptops do not); 0 drives every session flat out")
+    ap.add_argument("--nice-browsers", type=int, default=0, metavar="N",
+                    help="run Chromium at nice N (e.g. 19): stands in for each person's browser on their own "
+                         "laptop, leaving the two cores to the server; report beside the default run, not instead")
     ap.add_argument("--cycles", type=int, default=200)
     ap.add_argument("--batch", type=int, default=5, help="sessions opened at once (default 5)")
     args = ap.parse_args()
