@@ -282,3 +282,25 @@ def test_login_in_chromium(guarded):
         b.close()
     assert gp.external == []
     assert [e for e in gp.errors if "401" not in e] == []   # the refused login is the only error logged
+
+
+def test_gc_pauses_are_counted_for_the_load_benchmark(guarded):
+    """/debug/stats reports the collector's pauses (bench_load prints the full ones per phase); the stats
+    request's own full collection is not among them."""
+    import gc
+    from app.server import _GcPauses
+    rec = _GcPauses()
+    gc.callbacks.append(rec)
+    try:
+        gc.collect(0)
+        gc.collect(2)
+        rec.paused = True
+        gc.collect(2)
+    finally:
+        gc.callbacks.remove(rec)
+    assert rec.count[0] >= 1 and rec.count[2] >= 1 and len(rec.full_ms) == rec.count[2]
+    assert all(ms >= 0 for ms in rec.full_ms) and rec.total_ms[2] >= 0
+    first = stats(guarded.port)["gc_pauses"]
+    second = stats(guarded.port)["gc_pauses"]
+    assert set(first) == {"count", "total_ms", "full_ms"} and len(first["count"]) == 3
+    assert second["full_ms"] == first["full_ms"]       # the two requests' own collections are not counted

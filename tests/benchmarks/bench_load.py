@@ -58,6 +58,19 @@ def summary(ms) -> str:
             f"   ({len(ms)} changes)")
 
 
+def counts(stats: dict) -> dict:
+    return {k: v for k, v in stats.items() if k != "gc_pauses"}
+
+
+def gc_summary(before: dict, after: dict) -> str:
+    """The server's garbage-collector pauses between two /debug/stats answers."""
+    full = after["full_ms"][len(before["full_ms"]):]
+    young = [after["count"][g] - before["count"][g] for g in (0, 1)]
+    young_ms = sum(after["total_ms"][g] - before["total_ms"][g] for g in (0, 1))
+    return (f"server GC: {len(full)} full collections ({', '.join(f'{ms:.0f}' for ms in full) or 'none'} ms), "
+            f"{sum(young)} young ones ({young_ms:.0f} ms in all)")
+
+
 async def start_simulation(s: LoadSession) -> None:
     """Session ``s``: log-rank design at 1,000 events, 100,000 replicates, start (tests/test_browser_share.py)."""
     page = s.page
@@ -122,11 +135,12 @@ async def run(args) -> int:
             for i in range(0, n, args.batch):      # people join a few at a time
                 await asyncio.gather(*(s.open() for s in sessions[i:i + args.batch]))
             print(f"{n} sessions open (login, page, three figures drawn; {args.batch} at a time) in "
-                  f"{time.perf_counter() - t0:.1f} s; server: {debug_stats(srv.port)}")
+                  f"{time.perf_counter() - t0:.1f} s; server: {counts(debug_stats(srv.port))}")
             start = [await s.effect() for s in sessions]
             await asyncio.gather(*(s.hook() for s in sessions))
             nets = [2 * i - n for i in range(n)]          # -20, -18, ..., 18: a different end for each
 
+            gc0 = debug_stats(srv.port)["gc_pauses"]
             t0 = time.perf_counter()
             await asyncio.gather(*(drive(s, key_plan(net, args.changes, i), i, args.think)
                                    for i, (s, net) in enumerate(zip(sessions, nets))))
@@ -152,6 +166,8 @@ async def run(args) -> int:
             print(f"  all sessions     {summary(base)}   budget p95 < 250 ms")
             if trips:
                 print(f"  of which server  {summary(trips)}   (change sent -> server's patch received, page clock)")
+            gc1 = debug_stats(srv.port)["gc_pauses"]
+            print(f"  {gc_summary(gc0, gc1)}")
             others_base = [ms for s in sessions[1:] for _, ms in s.latencies[WARMUP:]]
 
             # ---- a simulation in session 0 while the others change ------------------------------
@@ -183,6 +199,7 @@ async def run(args) -> int:
             if still:
                 await sim.page.locator(".pl-sim-cancel button").click()
             during = [ms for s in sessions[1:] for pressed, ms in s.latencies if sim_start <= pressed <= sim_end]
+            gc2 = debug_stats(srv.port)["gc_pauses"]
             if during:
                 rise = percentile(during, 0.95) - percentile(others_base, 0.95)
                 print(f"  other sessions, before           {summary(others_base)}")
@@ -190,6 +207,7 @@ async def run(args) -> int:
                 print(f"  stall measure: p95 rise {rise:+.1f} ms (budget < 150 ms); longest update "
                       f"{max(during):.1f} ms; at least {rounds} changes a session in {sim_end - sim_start:.1f} s of "
                       f"simulation ({'cancelled after the rounds' if still else 'it finished first'})")
+                print(f"  {gc_summary(gc1, gc2)}")
             else:
                 print("  no change was pressed while the simulation ran")
             errors = [e for s in sessions for e in s.errors]
@@ -201,7 +219,7 @@ async def run(args) -> int:
             for s in sessions:
                 await s.close()
             released, secs = await wait_released(srv.port, timeout=60)
-            print(f"after closing the {n} sessions: {released} ({secs:.1f} s)")
+            print(f"after closing the {n} sessions: {counts(released)} ({secs:.1f} s)")
 
             # ---- open and close -----------------------------------------------------------------
             warm_errors = await cycle_sessions(browser, srv.url, args.batch, args.batch, password)
@@ -223,7 +241,9 @@ async def run(args) -> int:
             await browser.close()
     finally:
         code, _, err = stop_server(srv.proc)
-        print(f"server stopped, exit code {code}{'; Traceback in its log' if 'Traceback' in err else ''}")
+        print(f"server stopped, exit code {code}{'; Traceback in its log:' if 'Traceback' in err else ''}")
+        if "Traceback" in err:
+            print("\n".join("    " + line for line in err[err.index("Traceback"):].splitlines()[:40]))
     print("all checks passed" if ok else "SOME CHECKS FAILED")
     return 0 if ok else 1
 
