@@ -292,12 +292,61 @@ class _GcPauses:
 _gc_pauses = _GcPauses()
 
 
+class _HandlingTimes:
+    """Server-side time of each change: a page's message arriving to the patch answering it written.
+
+    Measured on the server's clock, so that it holds nothing of the browser's own delays (the load
+    benchmark's page-clock figure also holds the page sending and receiving on a busy machine).
+    Only messages carrying a widget's new value count (not the page reporting its size and the
+    like). A message is answered by the next patch Panel writes to that page; messages that arrive
+    while a refresh is pending share it and each counts from its own arrival.
+    """
+
+    def __init__(self) -> None:
+        import time
+        import weakref
+        self._clock = time.perf_counter
+        self._pending: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+        self.ms: list[float] = []
+
+    def install(self) -> None:
+        from bokeh.server.session import ServerSession
+        from panel.io import document as pn_document
+        if getattr(ServerSession._handle_patch, "_powerlens_timed", False):
+            return
+        handle_patch, dispatch = ServerSession._handle_patch, pn_document.dispatch_tornado
+
+        def timed_patch(session, message, connection):
+            events = message.content.get("events") or [{}]
+            if all(e.get("kind") == "ModelChanged" and e.get("attr") == "value" for e in events):
+                self._pending.setdefault(session, []).append(self._clock())   # a widget's value, not the page's size
+            return handle_patch(session, message, connection)
+
+        def timed_dispatch(conn, events=None, msg=None):
+            futures = dispatch(conn, events, msg)
+            session = getattr(conn, "_session", None)
+            if futures and events and session is not None:
+                now = self._clock()
+                for t in self._pending.pop(session, ()):
+                    if len(self.ms) < 200_000:
+                        self.ms.append(round((now - t) * 1000, 2))
+            return futures
+
+        timed_patch._powerlens_timed = True
+        ServerSession._handle_patch = timed_patch
+        pn_document.dispatch_tornado = timed_dispatch
+
+
+_handling = _HandlingTimes()
+
+
 def _debug_stats_pattern():
     """``/debug/stats``: counts for the load benchmark and tests, only to requests from this computer."""
     from tornado.web import RequestHandler
 
     if _gc_pauses not in gc.callbacks:
         gc.callbacks.append(_gc_pauses)
+    _handling.install()
 
     class DebugStats(RequestHandler):
         def get(self) -> None:
@@ -323,7 +372,8 @@ def _debug_stats_pattern():
                      "simulation_threads": sum(t.name == "powerlens-simulation" for t in threading.enumerate()),
                      "threads": threading.active_count(),
                      "rss_kb": _rss_kb(),
-                     "gc_pauses": _gc_pauses.as_dict()}
+                     "gc_pauses": _gc_pauses.as_dict(),
+                     "handled_ms": _handling.ms}
             del objs
             self.set_header("Content-Type", "application/json")
             self.set_header("Cache-Control", "no-store")

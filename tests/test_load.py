@@ -35,7 +35,9 @@ def test_five_sessions_keep_their_own_state(load_server):
     and powercore's power for it, with no console errors and no request off 127.0.0.1."""
     from playwright.async_api import async_playwright
 
-    from load_support import EFFECT_STEP, LoadSession, expected_power_text, key_plan, launch
+    from load_support import EFFECT_STEP, LoadSession, debug_stats, expected_power_text, key_plan, launch
+
+    handled_before = len(debug_stats(load_server.port)["handled_ms"])
 
     async def run():
         async with async_playwright() as p:
@@ -68,6 +70,9 @@ def test_five_sessions_keep_their_own_state(load_server):
         assert effect == pytest.approx(s0 + net * EFFECT_STEP, abs=1e-9)
         assert shown, f"the readout does not show powercore's {want} for effect {effect}"
     assert len({effect for _, _, effect, *_ in out}) == len(NETS)   # no session took another's moves
+    # the server timed each slider change from its message arriving to its patch written (bench_load prints it)
+    handled = debug_stats(load_server.port)["handled_ms"][handled_before:]
+    assert len(handled) == CHANGES * len(NETS) and all(ms > 0 for ms in handled), handled
 
 
 def test_closed_sessions_are_released(load_server):

@@ -59,7 +59,7 @@ def summary(ms) -> str:
 
 
 def counts(stats: dict) -> dict:
-    return {k: v for k, v in stats.items() if k != "gc_pauses"}
+    return {k: v for k, v in stats.items() if k not in ("gc_pauses", "handled_ms")}
 
 
 def gc_summary(before: dict, after: dict) -> str:
@@ -140,7 +140,8 @@ async def run(args) -> int:
             await asyncio.gather(*(s.hook() for s in sessions))
             nets = [2 * i - n for i in range(n)]          # -20, -18, ..., 18: a different end for each
 
-            gc0 = debug_stats(srv.port)["gc_pauses"]
+            stats0 = debug_stats(srv.port)
+            gc0 = stats0["gc_pauses"]
             t0 = time.perf_counter()
             await asyncio.gather(*(drive(s, key_plan(net, args.changes, i), i, args.think)
                                    for i, (s, net) in enumerate(zip(sessions, nets))))
@@ -166,7 +167,11 @@ async def run(args) -> int:
             print(f"  all sessions     {summary(base)}   budget p95 < 250 ms")
             if trips:
                 print(f"  of which server  {summary(trips)}   (change sent -> server's patch received, page clock)")
-            gc1 = debug_stats(srv.port)["gc_pauses"]
+            stats1 = debug_stats(srv.port)
+            gc1 = stats1["gc_pauses"]
+            handled = stats1["handled_ms"][len(stats0["handled_ms"]):]
+            if handled:
+                print(f"  server's clock   {summary(handled)}   (a change's message arriving -> its patch written)")
             print(f"  {gc_summary(gc0, gc1)}")
             others_base = [ms for s in sessions[1:] for _, ms in s.latencies[WARMUP:]]
 
