@@ -495,9 +495,9 @@ def _make_server(port: int, address: str, allowed: list[str], password: str | No
                     extra_patterns=[_debug_stats_pattern()] if debug_stats else [], **extra)
 
 
-#: BokehJS bundles the page loads. Bokeh's default also has bokeh-gl (WebGL drawing) and bokeh-tables
-#: (data tables), which no view of the page uses: leaving them out saves the browser fetching and
-#: parsing them before the first paint.
+#: BokehJS bundles the page loads. Bokeh's default also has bokeh-gl (WebGL drawing), which no view
+#: of the page uses: leaving it out saves the browser fetching and parsing it before the first paint.
+#: bokeh-tables stays although the page shows no data table: Panel's own bundle does not load without it.
 BOKEH_BUNDLES = ["bokeh", "bokeh-widgets", "bokeh-tables", "bokeh-mathjax"]
 
 
