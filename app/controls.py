@@ -24,7 +24,7 @@ from powercore.spec import ParamSpec
 
 from .state import ExplorerState, directions
 from .text import DIRECTION_LABELS, FIND_LABELS, MULTIPLICITY_LABELS, effect_unit, effect_value, num, param_unit, value_unit
-from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw, page_value, show_message
+from .theme import PANE_CSS, SLIDER_CSS, WIDGET_CSS, button_look, label_kw, page_models, page_value, show_message
 
 __all__ = ["LIVE_DEBOUNCE_MS", "WATCHED", "NumberControl", "ScenarioControls", "nice_ceil"]
 
@@ -297,7 +297,7 @@ class NumberControl(pn.viewable.Viewer):
         doc = pn.state.curdoc
         if doc is None or doc.session_context is None:
             return
-        models = [m for m, _ in list(self.box._models.values())]
+        models = page_models(self.box)
 
         def send() -> None:
             for m in models:

@@ -39,6 +39,8 @@ import signal
 import socket
 import sys
 import threading
+import time
+import weakref
 from typing import Iterable
 
 __all__ = ["DEBUG_STATS_ENV", "DEFAULT_PORT", "MIN_PASSWORD", "PASSWORD_ENV", "PasswordError",
@@ -264,9 +266,9 @@ class _GcPauses:
     about 1.4 million objects and some 0.6 s, during which no session is answered.
     """
 
+    _clock = staticmethod(time.perf_counter)   # held by the class: the callback also runs at interpreter exit
+
     def __init__(self) -> None:
-        import time
-        self._clock = time.perf_counter       # bound now: the callback also runs at interpreter exit
         self.count = [0, 0, 0]
         self.total_ms = [0.0, 0.0, 0.0]
         self.full_ms: list[float] = []       # every generation-2 pause, in order
@@ -302,10 +304,9 @@ class _HandlingTimes:
     while a refresh is pending share it and each counts from its own arrival.
     """
 
+    _clock = staticmethod(time.perf_counter)
+
     def __init__(self) -> None:
-        import time
-        import weakref
-        self._clock = time.perf_counter
         self._pending: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
         self.ms: list[float] = []
 
@@ -341,7 +342,10 @@ _handling = _HandlingTimes()
 
 
 def _debug_stats_pattern():
-    """``/debug/stats``: counts for the load benchmark and tests, only to requests from this computer."""
+    """``/debug/stats``: counts for the load benchmark and tests, only to requests from this computer.
+
+    Also starts what the counts need: the garbage-collector callback and the timing of changes.
+    """
     from tornado.web import RequestHandler
 
     if _gc_pauses not in gc.callbacks:

@@ -10,7 +10,7 @@ import panel as pn
 from bokeh.models import Div
 
 __all__ = ["BAND", "CSS", "FONT", "INK", "PALETTE", "PIN_STYLES", "LiveHTML", "button_look", "fill_when_opened",
-           "keep_shown", "label_kw", "page_value", "style_figure"]
+           "keep_shown", "label_kw", "page_models", "page_value", "style_figure"]
 
 PALETTE = {
     "null": "#6E6E6E",         # neutral grey: the null hypothesis
@@ -214,6 +214,11 @@ class LiveHTML(pn.viewable.Viewer):
             self.div.text = text
 
 
+def page_models(widget) -> list:
+    """The Bokeh models a Panel widget has made (one per page it is shown in)."""
+    return [model for model, _ in list(widget._models.values())]
+
+
 def page_value(widget, prop: str = "value"):
     """A widget's property as the page sent it last (None before any model exists).
 
@@ -221,7 +226,7 @@ def page_value(widget, prop: str = "value"):
     changes can be handled out of order; the widget's Bokeh model is set on the server's event
     loop in the order the page's messages arrive, so it holds the newest.
     """
-    for model, _ in list(widget._models.values()):
+    for model in page_models(widget):
         v = getattr(model, prop, None)
         if v is not None:
             return v

@@ -30,8 +30,8 @@ async def launch(playwright, nice: int = 0):
     """Debian's Chromium, headless, never a downloaded one.
 
     ``nice`` > 0 starts it (and so every renderer it spawns) at that lower CPU priority, through a
-    small ``exec nice`` wrapper script: a stand-in for browsers on the meeting's own laptops, so that
-    the server is not measured competing with twenty pages drawing on the same two cores.
+    small ``exec nice`` wrapper script: meant to stand in for browsers on the meeting's own laptops
+    (on our 2-core VM it did not lower the server's figures: runs there vary twofold).
     """
     exe = CHROMIUM
     if nice:

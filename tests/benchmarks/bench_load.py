@@ -127,8 +127,8 @@ async def run(args) -> int:
         async with async_playwright() as p:
             browser = await launch(p, nice=args.nice_browsers)
             if args.nice_browsers:
-                print(f"Chromium runs at nice {args.nice_browsers}: the server has the cores first (a stand-in "
-                      f"for browsers on other machines)")
+                print(f"Chromium runs at nice {args.nice_browsers}, meant to stand in for browsers on other machines "
+                      f"(on a 2-core VM it did not lower the server's figures)")
             n = args.sessions
             sessions = [LoadSession(browser, srv.url, password, name=f"session {i}") for i in range(n)]
             t0 = time.perf_counter()
@@ -171,7 +171,7 @@ async def run(args) -> int:
             gc1 = stats1["gc_pauses"]
             handled = stats1["handled_ms"][len(stats0["handled_ms"]):]
             if handled:
-                print(f"  server's clock   {summary(handled)}   (a change's message arriving -> its patch written)")
+                print(f"  server's clock   {summary(handled)}   (a change's message arriving -> its patch written; every change, warm-up included)")
             print(f"  {gc_summary(gc0, gc1)}")
             others_base = [ms for s in sessions[1:] for _, ms in s.latencies[WARMUP:]]
 
@@ -263,8 +263,8 @@ def main() -> int:
                          "each adjusting and looking; all twenty browsers share this machine's two cores, which a "
                          "meeting's laptops do not); 0 drives every session flat out")
     ap.add_argument("--nice-browsers", type=int, default=0, metavar="N",
-                    help="run Chromium at nice N (e.g. 19): stands in for each person's browser on their own "
-                         "laptop, leaving the two cores to the server; report beside the default run, not instead")
+                    help="run Chromium at nice N (e.g. 19), meant to stand in for each person's browser on their "
+                         "own laptop; report beside the default run, not instead")
     ap.add_argument("--cycles", type=int, default=200)
     ap.add_argument("--batch", type=int, default=5, help="sessions opened at once (default 5)")
     args = ap.parse_args()
