@@ -146,10 +146,14 @@ class Explorer(pn.viewable.Viewer):
     def refresh(self, figures: bool = True, details: bool = True) -> None:
         """Bring the controls and views in line with the state, as one batch of changes.
 
-        The controls, the three views, the readout and the share link follow every change. The
-        ``details`` (the captions under the figures, the working, justification, pins, helpers and
-        uncertainty card) are heavier to send and to redraw: while a slider is dragged the page
-        refreshes them only once the hand has rested for ``SETTLE_MS``.
+        The controls, the three views with their captions, the readout and the share link follow
+        every change. The ``details`` (the working, justification, pins, helpers and uncertainty
+        card) are heavier to send and to redraw: while a slider is dragged the page refreshes them
+        only once the hand has rested for ``SETTLE_MS``.
+
+        The captions are drawn inside the figures, so they travel with the new data: changed apart
+        from it, they made the browser paint each figure a second time at every rest (measured in
+        headless Chromium: 20 paints for 10 changes, against 10 with them here).
         """
         st = self.state
         with pn.io.hold():
@@ -158,6 +162,7 @@ class Explorer(pn.viewable.Viewer):
             if figures and snap is not None:
                 for view in self._views:
                     view.update(snap)
+                    view.set_caption(snap)      # no-op when unchanged
                 self.n_curve.set_simulated(self.sim.points_for(snap.result.solved))
             self.readout.update()
             self.share.update()    # the link and file name that the copy and export buttons read in the browser
@@ -172,7 +177,7 @@ class Explorer(pn.viewable.Viewer):
         self.allocation.update()
         if snap is not None:
             for view in self._views:
-                view.set_caption(snap)
+                view.set_caption(snap)    # for changes that did not redraw the figures (the unit's name)
             self.working.update()
         self.basis.update()
         self.pins.update()

@@ -85,6 +85,22 @@ def test_captions_inside_figures(app):
     assert expected[5] == f"Powerlens {pc.__version__} · {app.share.base.value[-10:]}"
 
 
+def test_captions_travel_with_the_data_not_with_the_details(app):
+    """A refresh without details (a slider step) still rewrites the captions, so the browser paints
+    each figure once per change; the working waits for the details."""
+    working_before = app.working.pane.object
+    app._pending = True                 # hold the automatic refresh; the test makes the fast one itself
+    app.state.values = {**app.state.values, "delta": 25.0}
+    app.refresh(figures=True, details=False)
+    want = "\n".join(caption(app.state.current_design(), app.state.snapshot.result, "min"))
+    assert "+25 min" in want
+    for fig in (app.densities.fig, app.effect_curve.fig, app.n_curve.fig):
+        assert [t.text for t in fig.below if isinstance(t, Title)] == [want]
+    assert app.working.pane.object == working_before
+    app._refresh_details()
+    assert app.working.pane.object != working_before
+
+
 # ---- changes flow to the views --------------------------------------------------------------
 def test_effect_box_updates_views_in_place(app):
     """Typing an effect replaces the sources' data in place and the readout follows powercore."""
