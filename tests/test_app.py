@@ -476,6 +476,45 @@ def test_small_arrays_travel_inside_the_message():
     assert np.array_equal(got[0], small) and np.array_equal(got[1], large)
 
 
+def test_patches_refer_to_the_models_they_meet_as_bokeh_does(app):
+    """speedups item 9: a patch built without a reference for every model of the document is Bokeh's
+    own message, byte for byte: changed data, a new model sent whole, the models it names as
+    references, and afterwards the same models still waiting to be sent."""
+    from unittest import mock
+    from bokeh.core.serialization import Serializer
+    from bokeh.models import Label
+    from bokeh.protocol import Protocol
+    from app import speedups
+
+    doc = app.doc
+    doc.models.flush_synced()        # as once the page has the document: every model so far is synced
+    events = []
+    doc.on_change(lambda e: events.append(e))
+    app._pending = True
+    app.state.values = {**app.state.values, "delta": 27.0}
+    app.refresh()
+    app.densities.fig.add_layout(Label(x=0, y=0, text="new"))     # a model the page has not had yet
+    unsent = Label(x=1, y=1, text="other")
+    doc.add_root(unsent)                                            # new too, but not in these events
+    events = [e for e in events if getattr(e, "model", None) is not unsent]
+    assert len(events) > 10
+    waiting = set(doc.models._new_models)
+    assert unsent in waiting and len(waiting) == 2
+
+    def build(create):
+        doc.models._new_models = set(waiting)
+        with mock.patch.object(Serializer, "_encode_bytes", speedups._encode_small_bytes_inline), \
+                mock.patch.object(type(Protocol().create("PATCH-DOC", events[:1])), "create", create):
+            message = Protocol().create("PATCH-DOC", events)
+        return message.content_json, [b.to_bytes() for b in message.buffers], set(doc.models._new_models)
+
+    ours = build(classmethod(speedups._create_patch))
+    bokehs = build(speedups._bokeh_create_patch)
+    assert ours == bokehs
+    assert '"text":"new"' in ours[0].replace(" ", "") and "other" not in ours[0]
+    assert ours[2] == {unsent}
+
+
 def test_server_send_to_a_closed_socket_is_one_handled_error():
     """A browser gone mid-message: the send raises WebSocketClosedError once (Bokeh's connection logs
     that as a warning) and asyncio reports no 'exception was never retrieved' traceback."""
