@@ -10,7 +10,9 @@ its own caption (design, direction, α, effect, spread, n, power, date, version)
 """
 from __future__ import annotations
 
+import functools
 import math
+import threading
 
 import numpy as np
 import panel as pn
@@ -82,6 +84,29 @@ def _text(label) -> str:
     return str(getattr(label, "value", label))
 
 
+def _on_loop(method):
+    """Make a figure change on the session's event loop, even when a worker thread asks for it.
+
+    Panel runs widget callbacks (a pin button, a record arriving, the uncertainty card's fields)
+    in worker threads. A Panel object changed there is safe: Panel hands the change to the loop.
+    These figures are plain Bokeh models, changed inside ``pn.io.hold``; but a hold that a worker
+    thread joins ends when the loop's own batch (a slider's refresh) ends, and a change after that
+    reached Bokeh outside the document lock ("_pending_writes should be non-None", seen in a
+    browser test importing a record with pins). Off the loop, in a served session, the change is
+    queued for the loop's next tick (Bokeh's thread-safe way in); otherwise it runs at once.
+    """
+    @functools.wraps(method)
+    def wrapper(self, *args, **kwargs):
+        doc = self.fig.document
+        if doc is not None and doc.session_context is not None:
+            loop_thread = pn.state._thread_id_.get(doc, threading.main_thread().ident)
+            if threading.get_ident() != loop_thread:
+                doc.add_next_tick_callback(functools.partial(method, self, *args, **kwargs))
+                return None
+        return method(self, *args, **kwargs)
+    return wrapper
+
+
 class _Overlays:
     """Pinned curves and one band on a power figure: renderers made once, data set in place."""
 
@@ -119,6 +144,7 @@ class _Overlays:
         if self.overlay_legend.visible != show:
             self.overlay_legend.visible = show
 
+    @_on_loop
     def set_pins(self, curves) -> None:
         """Overlay pinned curves: ``{slot: (name, x, power[, (x0, power0)])}``, slot 0..MAX_PINS−1 fixing
         colour and dash; the optional ``(x0, power0)`` is the pin's own point, marked in its colour.
@@ -163,6 +189,7 @@ class _Overlays:
             return []
         return [_text(item.label) for item in self.overlay_legend.items if item.visible]
 
+    @_on_loop
     def _set_band(self, x, lo, hi, label: str) -> None:
         item = self.overlay_legend.items[1]
         if x is None:
@@ -482,6 +509,7 @@ class NCurveFigure(_Overlays, _FigureView):
         """Shade power between ``lo`` and ``hi`` at each sample size ``n`` (legend ``label``); ``set_band(None)`` clears."""
         self._set_band(n, lo, hi, label)
 
+    @_on_loop
     def set_simulated(self, points) -> None:
         """Show simulated (n, power, low, high) points; none hides them."""
         arr = np.asarray(points, dtype=float).reshape(-1, 4)

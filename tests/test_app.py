@@ -515,6 +515,49 @@ def test_patches_refer_to_the_models_they_meet_as_bokeh_does(app):
     assert ours[2] == {unsent}
 
 
+def test_figure_overlays_change_on_the_event_loop_only():
+    """A pin, band or simulation drawn from a worker thread of a served session waits for the loop's
+    next tick (raw Bokeh models changed off the loop once escaped the document lock); on the loop,
+    and offline, it is drawn at once."""
+    import threading
+    import weakref
+    from bokeh.document import Document
+    from app.figures import EffectCurveFigure, NCurveFigure
+
+    class Context:            # stands in for the session that a served document has
+        pass
+
+    effect, ncurve = EffectCurveFigure(), NCurveFigure()
+    doc = Document()
+    doc.add_root(effect.fig)
+    doc.add_root(ncurve.fig)
+    context = Context()
+    doc._session_context = weakref.ref(context)
+    curve = {0: ("A", np.array([0.1, 0.2]), np.array([0.3, 0.5]))}
+
+    def from_a_worker():
+        effect.set_pins(curve)
+        effect.set_band(np.array([0.1, 0.2]), np.array([0.2, 0.3]), np.array([0.4, 0.6]), "band")
+        ncurve.set_simulated([(10, 0.5, 0.4, 0.6)])
+    worker = threading.Thread(target=from_a_worker)
+    worker.start()
+    worker.join()
+    assert effect.pin_names() == [] and not effect.band.visible and len(ncurve.src_sim.data["n"]) == 0
+    queued = list(doc.session_callbacks)
+    assert len(queued) == 3
+    for cb in queued:           # what the loop does at its next tick
+        cb.callback()
+    assert effect.pin_names() == ["A"] and effect.band.visible and list(ncurve.src_sim.data["n"]) == [10]
+
+    effect.set_pins({})          # on the loop's own thread (here the main one): at once
+    assert effect.pin_names() == []
+    doc._session_context = None   # not served: at once from any thread
+    worker = threading.Thread(target=lambda: effect.set_pins(curve))
+    worker.start()
+    worker.join()
+    assert effect.pin_names() == ["A"]
+
+
 def test_server_send_to_a_closed_socket_is_one_handled_error():
     """A browser gone mid-message: the send raises WebSocketClosedError once (Bokeh's connection logs
     that as a warning) and asyncio reports no 'exception was never retrieved' traceback."""

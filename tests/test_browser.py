@@ -74,6 +74,36 @@ def test_visual_css_lookup_is_skipped(open_page):
     assert kept == [0, True, True]
 
 
+def test_a_slider_step_makes_no_new_canvases(open_page):
+    """speedups items 5 and 10: once warm, a slider step draws the hatch from its cache and leaves the
+    legends' items alone (BokehJS 3.9 made 61 canvases a step, re-rendering every legend at every data
+    change), while the legends still show their entries."""
+    from browser_support import DONE_JS, HOOK_JS
+    page = open_page().page
+    page.wait_for_function("() => window.__powerlens_glyph_hatch_kept === true"
+                           " && window.__powerlens_legend_kept === true", timeout=10000)
+    page.evaluate(HOOK_JS)
+    handle = page.locator(".pl-slider-effect .noUi-handle")
+    handle.focus()
+
+    def step(key):
+        page.keyboard.press(key)
+        page.wait_for_function(DONE_JS, timeout=10000, polling=10)
+        page.wait_for_timeout(400)          # past SETTLE_MS: the details follow too
+    step("ArrowRight")                      # warm: first hatch of each kind, first legend key
+    page.evaluate("""() => { window.__canvases = 0; const make = document.createElement.bind(document);
+        document.createElement = (tag, ...rest) => {
+          if (String(tag).toLowerCase() === 'canvas') window.__canvases++; return make(tag, ...rest); }; }""")
+    for key in ("ArrowRight", "ArrowLeft", "ArrowRight"):
+        step(key)
+    assert page.evaluate("() => window.__canvases") == 0
+    entries = page.evaluate("""() => {
+      const view = Bokeh.index.find_one(Bokeh.documents[0].get_model_by_name('densities'));
+      const legend = [...view.renderer_views.values()].find(v => 'grid_el' in v);
+      return [legend.entries.length, legend.grid_el.childElementCount, legend.entries.map(e => e.label)]; }""")
+    assert entries == [4, 4, ["H0 (null)", "H1 (alternative)", "rejection region (α under H0)", "power (H1 there)"]]
+
+
 def test_keyboard_drag_and_typing(open_page):
     """Arrow keys step the n slider; typing an exact effect moves its slider and Cohen's d."""
     from playwright.sync_api import expect
