@@ -176,8 +176,6 @@ class Explorer(pn.viewable.Viewer):
         self.effect_helper.update()
         self.allocation.update()
         if snap is not None:
-            for view in self._views:
-                view.set_caption(snap)    # for changes that did not redraw the figures (the unit's name)
             self.working.update()
         self.basis.update()
         self.pins.update()

@@ -484,6 +484,7 @@ def test_patches_refer_to_the_models_they_meet_as_bokeh_does(app):
     from bokeh.core.serialization import Serializer
     from bokeh.models import Label
     from bokeh.protocol import Protocol
+    from bokeh.protocol.messages.patch_doc import patch_doc
     from app import speedups
 
     doc = app.doc
@@ -504,7 +505,7 @@ def test_patches_refer_to_the_models_they_meet_as_bokeh_does(app):
     def build(create):
         doc.models._new_models = set(waiting)
         with mock.patch.object(Serializer, "_encode_bytes", speedups._encode_small_bytes_inline), \
-                mock.patch.object(type(Protocol().create("PATCH-DOC", events[:1])), "create", create):
+                mock.patch.object(patch_doc, "create", create):
             message = Protocol().create("PATCH-DOC", events)
         return message.content_json, [b.to_bytes() for b in message.buffers], set(doc.models._new_models)
 
