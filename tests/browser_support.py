@@ -41,7 +41,7 @@ elif not (os.path.exists(CHROMIUM) and os.access(CHROMIUM, os.X_OK)):
 
 needs_browser = pytest.mark.skipif(skip_reason is not None, reason=skip_reason or "")
 
-__all__ = ["ARTIFACTS", "DONE_JS", "ELAPSED_JS", "GuardedPage", "HOOK_JS", "browser", "needs_browser",
+__all__ = ["ARTIFACTS", "DONE_JS", "ELAPSED_JS", "GuardedPage", "HOOK_JS", "WAIT_JS", "browser", "needs_browser",
            "open_page", "server", "start_server", "stop_server", "wait_ready"]
 
 READY_JS = """() => { const d = window.Bokeh && Bokeh.documents[0];
@@ -53,13 +53,17 @@ READY_JS = """() => { const d = window.Bokeh && Bokeh.documents[0];
 # Slider latency on the page clock (tests/benchmarks/bench_app.py, bench_load.py): HOOK_JS marks each
 # keydown, then the first data change and the first repaint after it in each of the three figures;
 # DONE_JS says all three have repainted, ELAPSED_JS gives keydown to the last repaint in ms.
+# WAIT_JS (evaluated after the key press) resolves with that figure once all three have repainted: the
+# page tells the driver, where DONE_JS would have the driver poll the page every few ms (under load,
+# twenty pages polling cost the machine CPU that the page itself then lacks).
 HOOK_JS = """() => {
   const doc = Bokeh.documents[0];
   const figs = ['densities', 'power-effect', 'power-n'];
   const sources = {densities: ['density-curve', 'density-bars-null', 'density-bars-alt'],
                    'power-effect': ['effect-curve'], 'power-n': ['n-curve']};
-  window.__lat = {t0: null, data: {}, paint: {}};
-  document.addEventListener('keydown', () => { window.__lat = {t0: performance.now(), data: {}, paint: {}}; }, true);
+  window.__lat = {t0: null, data: {}, paint: {}, done: null};
+  document.addEventListener('keydown', () => {
+    window.__lat = {t0: performance.now(), data: {}, paint: {}, done: null}; }, true);
   for (const f of figs) {
     for (const s of sources[f]) {
       const src = doc.get_model_by_name(s);
@@ -68,11 +72,21 @@ HOOK_JS = """() => {
     }
     const view = Bokeh.index.find_one(doc.get_model_by_name(f));
     view.repainted.connect(() => { const L = window.__lat;
-      if (L.t0 !== null && L.data[f] !== undefined && L.paint[f] === undefined) L.paint[f] = performance.now(); });
+      if (L.t0 === null || L.data[f] === undefined || L.paint[f] !== undefined) return;
+      L.paint[f] = performance.now();
+      if (L.done !== null && figs.every(g => L.paint[g] !== undefined)) L.done(); });
   }
 }"""
 DONE_JS = "() => ['densities', 'power-effect', 'power-n'].every(f => window.__lat.paint[f] !== undefined)"
 ELAPSED_JS = "() => Math.max(...Object.values(window.__lat.paint)) - window.__lat.t0"
+WAIT_JS = f"""(timeout) => new Promise((resolve, reject) => {{
+  const L = window.__lat;
+  const finish = () => resolve(({ELAPSED_JS})());
+  if (({DONE_JS})()) return finish();
+  const timer = setTimeout(() => reject(new Error('the three figures did not all redraw in ' + timeout + ' ms')),
+                           timeout);
+  L.done = () => {{ clearTimeout(timer); finish(); }};
+}})"""
 
 
 class ServerProcess:

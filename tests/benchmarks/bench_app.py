@@ -25,7 +25,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))          # reposito
 from playwright.sync_api import expect, sync_playwright  # noqa: E402
 
 import powercore as pc  # noqa: E402
-from browser_support import (CHROMIUM, CHROMIUM_ARGS, DONE_JS, ELAPSED_JS, HOOK_JS, GuardedPage,  # noqa: E402
+from browser_support import (CHROMIUM, CHROMIUM_ARGS, HOOK_JS, WAIT_JS, GuardedPage,  # noqa: E402
                              start_server, stop_server)
 
 DESIGNS = ("two-means-t", "two-proportions", "correlation-fisher")
@@ -60,8 +60,7 @@ def latency(page, design_id: str, changes: int) -> list[float]:
     out = []
     for i in range(changes + 3):
         page.keyboard.press("ArrowRight" if (i // 2) % 2 == 0 else "ArrowLeft")
-        page.wait_for_function(DONE_JS, timeout=10000, polling=5)
-        ms = page.evaluate(ELAPSED_JS)
+        ms = page.evaluate(WAIT_JS, 10000)
         if i >= 3:          # the first few warm up caches in the browser and the server
             out.append(ms)
         page.wait_for_timeout(60)
