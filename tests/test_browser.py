@@ -74,29 +74,43 @@ def test_visual_css_lookup_is_skipped(open_page):
     assert kept == [0, True, True]
 
 
-def test_a_slider_step_makes_no_new_canvases(open_page):
-    """speedups items 5 and 10: once warm, a slider step draws the hatch from its cache and leaves the
+def test_a_slider_step_makes_no_new_canvases_and_no_style_writes(open_page):
+    """speedups items 5, 10 and 11: once warm, a slider step draws the hatch from its cache, leaves the
     legends' items alone (BokehJS 3.9 made 61 canvases a step, re-rendering every legend at every data
-    change), while the legends still show their entries."""
-    from browser_support import DONE_JS, HOOK_JS
+    change) and writes no glyph's empty element's position sheet (10 style sheets rewritten a step,
+    each making the browser recompute styles), while the legends still show their entries and every
+    figure is still redrawn (WAIT_JS waits for all three)."""
+    from browser_support import HOOK_JS, WAIT_JS
     page = open_page().page
     page.wait_for_function("() => window.__powerlens_glyph_hatch_kept === true"
-                           " && window.__powerlens_legend_kept === true", timeout=10000)
+                           " && window.__powerlens_legend_kept === true"
+                           " && window.__powerlens_glyph_place_kept === true", timeout=10000)
     page.evaluate(HOOK_JS)
     handle = page.locator(".pl-slider-effect .noUi-handle")
     handle.focus()
 
     def step(key):
         page.keyboard.press(key)
-        page.wait_for_function(DONE_JS, timeout=10000, polling=10)
+        page.evaluate(WAIT_JS, 10000)
         page.wait_for_timeout(400)          # past SETTLE_MS: the details follow too
     step("ArrowRight")                      # warm: first hatch of each kind, first legend key
     page.evaluate("""() => { window.__canvases = 0; const make = document.createElement.bind(document);
         document.createElement = (tag, ...rest) => {
           if (String(tag).toLowerCase() === 'canvas') window.__canvases++; return make(tag, ...rest); }; }""")
+    # every style sheet written inside a glyph renderer's element, counted by a MutationObserver
+    glyphs = page.evaluate("""() => { window.__sheet_writes = 0; let glyphs = 0;
+        const obs = new MutationObserver(ms => { window.__sheet_writes += ms.length; });
+        const seen = new Set(), stack = Object.values(Bokeh.index);
+        while (stack.length) { const v = stack.pop(); if (v == null || seen.has(v)) continue; seen.add(v);
+          if (v.model && v.model.type === 'GlyphRenderer') {
+            glyphs++; obs.observe(v.shadow_el, {childList: true, characterData: true, subtree: true}); }
+          for (const c of (v.child_views ?? [])) stack.push(c);
+          if (v.renderer_views != null) for (const c of v.renderer_views.values()) stack.push(c); }
+        return glyphs; }""")
     for key in ("ArrowRight", "ArrowLeft", "ArrowRight"):
         step(key)
     assert page.evaluate("() => window.__canvases") == 0
+    assert glyphs >= 10 and page.evaluate("() => window.__sheet_writes") == 0
     entries = page.evaluate("""() => {
       const view = Bokeh.index.find_one(Bokeh.documents[0].get_model_by_name('densities'));
       const legend = [...view.renderer_views.values()].find(v => 'grid_el' in v);
