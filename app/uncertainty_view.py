@@ -36,7 +36,7 @@ from bokeh.plotting import figure
 from powercore import InvalidParameter, NoSolution
 from powercore import adjust
 from powercore.engine import sample_size
-from powercore.uncertainty import (assurance, power_band, sd_interval, sd_params, sd_upper_limit,
+from powercore.uncertainty import (assurance, band_range, power_band, sd_interval, sd_params, sd_upper_limit,
                                    sensitivity_effect_power, sensitivity_sd_dropout)
 
 from .state import ExplorerState, Snapshot
@@ -156,7 +156,8 @@ class UncertaintyPanel(pn.viewable.Viewer):
         self.assurance = None
         self.spread: dict | None = None
         self.table = None
-        self.band: tuple | None = None       # (effect PowerBand, n PowerBand)
+        self.band: tuple | None = None       # (effect PowerBand, n PowerBand), while it is drawn
+        self.band_range: tuple[float, float] | None = None    # its checked SD range (low, high)
         self.timing_ms: float = 0.0
         look = button_look()
         solid = {k: v for k, v in look.items() if k in ("color", "button_type")}
@@ -594,10 +595,10 @@ class UncertaintyPanel(pn.viewable.Viewer):
         body = "".join(f'<tr><th>{_e(lab)}</th><td data-key="{k}" class="{c}">{_e(v)}</td></tr>'
                        for k, lab, v, c in rows)
         band = ""
-        if self.band is not None:
-            b = self.band[0]
-            band = (f'<p class="pl-note" data-key="band">Band: power with {_e(d.param(out["name"]).label)} from {num(b.sd_low, 4)} '
-                    f'to {num(b.sd_high, 4)}{_e(u)}'
+        if self.band_range is not None:
+            sd_low, sd_high = self.band_range
+            band = (f'<p class="pl-note" data-key="band">Band: power with {_e(d.param(out["name"]).label)} from {num(sd_low, 4)} '
+                    f'to {num(sd_high, 4)}{_e(u)}'
                     + (" — drawn on both power curves." if self.band_show.value else
                        " — tick the box to draw it on both power curves.") + "</p>")
         return (f'<table class="pl-readout" aria-label="uncertain spread">{body}</table>'
@@ -618,14 +619,18 @@ class UncertaintyPanel(pn.viewable.Viewer):
         if name and not errors:
             sc = snap.result.solved
             try:
-                eb = power_band(sc, name, float(lo), float(hi), effects=_thin(snap.effect_curve.x))
-                nb = power_band(sc, name, float(lo), float(hi), ns=_thin(snap.n_curve.x))
-                self.band = (eb, nb)
+                self.band_range = band_range(sc, name, float(lo), float(hi))
+                if self.band_show.value:   # the curves are worked out only to be drawn (~3 ms a change)
+                    eb = power_band(sc, name, float(lo), float(hi), effects=_thin(snap.effect_curve.x))
+                    nb = power_band(sc, name, float(lo), float(hi), ns=_thin(snap.n_curve.x))
+                    self.band = (eb, nb)
+                else:
+                    self.band = None
             except InvalidParameter as e:
                 self._messages({"band-high" if e.field == "sd_high" else "band-low": f"{e.constraint}; got {e.value!r}"},
                                (self.band_low, self.band_high))
         elif not name:
-            self.band = None
+            self.band = self.band_range = None
         if self.band is not None and self.band_show.value and name:
             eb, nb = self.band
             words = snap.design.param(name).label.split()

@@ -32,7 +32,7 @@ from .engine import power_at, sample_size
 from .errors import InvalidParameter, NoSolution
 from .scenario import Scenario
 
-__all__ = ["Assurance", "PowerBand", "PowerDistribution", "SensitivityTable", "assurance", "power_band",
+__all__ = ["Assurance", "PowerBand", "PowerDistribution", "SensitivityTable", "assurance", "band_range", "power_band",
            "power_distribution", "sd_interval", "sd_params", "sd_upper_limit", "sensitivity_effect_power",
            "sensitivity_sd_dropout"]
 
@@ -209,12 +209,10 @@ class PowerBand:
     sd_high: float
 
 
-def power_band(scenario: Scenario, sd_name: str, sd_low: float, sd_high: float, *, effects=None,
-               ns=None) -> PowerBand:
-    """Power at each effect (at the scenario's n) or at each n (at its effect), for SD low and SD high.
+def band_range(scenario: Scenario, sd_name: str, sd_low: float, sd_high: float) -> tuple[float, float]:
+    """The SD range of a :func:`power_band`, checked as it checks it: ``(sd_low, sd_high)`` as floats.
 
-    Give exactly one of ``effects`` and ``ns``. Power falls as the SD grows, so ``upper`` is the
-    power at ``sd_low``; both ends are computed and ordered pointwise all the same.
+    Raises :class:`InvalidParameter` naming the field at fault, without computing any power.
     """
     d = get_design(scenario.design)
     if sd_name not in sd_params(d.id):
@@ -223,12 +221,24 @@ def power_band(scenario: Scenario, sd_name: str, sd_low: float, sd_high: float, 
     sd_high = _positive("sd_high", sd_high)
     if sd_high < sd_low:
         raise InvalidParameter("sd_high", f"must be at least the low end {sd_low:g}", sd_high)
+    spec = d.param(sd_name)
+    spec.check(sd_low), spec.check(sd_high)
+    return sd_low, sd_high
+
+
+def power_band(scenario: Scenario, sd_name: str, sd_low: float, sd_high: float, *, effects=None,
+               ns=None) -> PowerBand:
+    """Power at each effect (at the scenario's n) or at each n (at its effect), for SD low and SD high.
+
+    Give exactly one of ``effects`` and ``ns``. Power falls as the SD grows, so ``upper`` is the
+    power at ``sd_low``; both ends are computed and ordered pointwise all the same.
+    """
+    d = get_design(scenario.design)
+    sd_low, sd_high = band_range(scenario, sd_name, sd_low, sd_high)
     if (effects is None) == (ns is None):
         raise InvalidParameter("effects", "give either effects or ns", None)
     p = dict(scenario.params)
     alpha = adjust.test_alpha(scenario.alpha, scenario.adjustments)
-    spec = d.param(sd_name)
-    spec.check(sd_low), spec.check(sd_high)
     if effects is not None:
         x = np.asarray(effects, dtype=float)
         base, n = {**p, d.effect: x}, scenario.n

@@ -178,6 +178,24 @@ def test_band_reaches_both_curves_and_is_monotone_in_sd(app, unc):
     assert not app.effect_curve.band.visible and not app.n_curve.band.visible
 
 
+def test_the_band_is_worked_out_only_while_it_is_drawn(app, unc, monkeypatch):
+    """Unticked, a change of the scenario computes no band (four power curves of ~120 points each) but
+    still checks the range and names it; ticking the box computes and draws it."""
+    import app.uncertainty_view as uv
+    calls = []
+    monkeypatch.setattr(uv, "power_band", lambda *a, **k: calls.append(k) or power_band(*a, **k))
+    unc.band_low.box.value, unc.band_high.box.value = 40.0, 50.0
+    app.state.n = 70
+    app.refresh()
+    assert calls == [] and unc.band is None and unc.band_range == (40.0, 50.0)
+    assert "from 40 to 50" in unc.spread_pane.object and "tick the box" in unc.spread_pane.object
+    unc.band_high.box.value = 30.0                 # below the low end: refused at the field, no band
+    assert unc.band_high.msg.visible and "at least the lower end" in unc.band_high.msg.object and calls == []
+    unc.band_high.box.value = 50.0
+    unc.band_show.value = True
+    assert len(calls) == 2 and unc.band is not None and app.effect_curve.band.visible
+
+
 def test_band_follows_the_scenario_while_the_card_is_closed(app, unc):
     """Once drawn, the band follows a change of n even with the card closed."""
     unc.band_show.value = True

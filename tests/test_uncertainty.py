@@ -200,11 +200,19 @@ def test_power_band_matches_power_at_each_end_and_is_ordered():
     (dict(sd_name="sd", sd_low=3.0, sd_high=2.0), "sd_high"),
 ])
 def test_power_band_refuses_bad_ranges(kw, field):
-    """A band needs an SD parameter and 0 < low ≤ high."""
-    from powercore.uncertainty import power_band
+    """A band needs an SD parameter and 0 < low ≤ high; ``band_range`` refuses the same, naming the same field."""
+    from powercore.uncertainty import band_range, power_band
     with pytest.raises(pc.InvalidParameter) as info:
         power_band(pc.Scenario("two-means-t", n=40), effects=[1.0], **kw)
     assert info.value.field == field
+    with pytest.raises(pc.InvalidParameter) as info:
+        band_range(pc.Scenario("two-means-t", n=40), **kw)
+    assert info.value.field == field
+
+
+def test_band_range_gives_the_checked_floats():
+    from powercore.uncertainty import band_range
+    assert band_range(pc.Scenario("two-means-t", n=40), "sd", 8, 12) == (8.0, 12.0)
 
 
 # ---- sensitivity tables ---------------------------------------------------------------------------
