@@ -20,7 +20,7 @@ import powercore as pc
 from powercore.justification import BASES, DELTA2_NOTE, OBSERVED_WARNING, check_basis, justification, standardized_only
 
 from .state import ExplorerState
-from .theme import CARD_CSS, PANE_CSS, PIN_STYLES, WIDGET_CSS, button_look, keep_shown, label_kw
+from .theme import CARD_CSS, PANE_CSS, PIN_STYLES, WIDGET_CSS, LiveHTML, button_look, keep_shown, label_kw
 
 if TYPE_CHECKING:   # pragma: no cover
     from .pins import PinBoard
@@ -125,14 +125,14 @@ class _Block:
         look = {k: v for k, v in button_look().items()}
         self.head = pn.pane.HTML("", stylesheets=[WARN_CSS], margin=(0, 10), sizing_mode="stretch_width",
                                  css_classes=[f"pl-just-head-{key}"])
-        self.para = pn.pane.HTML("", stylesheets=[WARN_CSS], margin=(0, 10), sizing_mode="stretch_width",
-                                 css_classes=[f"pl-just-text-{key}"])
+        # the paragraph changes at every slider step while the card is open: text set in place
+        self.para = LiveHTML(css_classes=[f"pl-just-text-{key}"], margin=(0, 10), css=WARN_CSS)
         self.text = pn.widgets.TextAreaInput(value="", visible=False, css_classes=[f"pl-just-value-{key}"])
         self.status = pn.widgets.StaticText(value="", margin=(8, 6), css_classes=[f"pl-just-status-{key}"],
                                             stylesheets=[":host { font-size: 15px; color: #3F3F3F; }"])
         self.copy = pn.widgets.Button(label="Copy", **look, width=90, margin=(4, 10),
                                       css_classes=[f"pl-just-copy-{key}"], stylesheets=[WIDGET_CSS])
-        self.copy.js_on_click(args=dict(text=self.text, para=self.para, status=self.status), code=COPY_TEXT_JS)
+        self.copy.js_on_click(args=dict(text=self.text, para=self.para.div, status=self.status), code=COPY_TEXT_JS)
         self.layout = pn.Column(self.head, self.para, pn.Row(self.copy, self.status, self.text, margin=0),
                                 sizing_mode="stretch_width", margin=(0, 0, 6, 0), visible=False,
                                 css_classes=[f"pl-just-{key}"])

@@ -195,9 +195,9 @@ class LiveHTML(pn.viewable.Viewer):
     ``object`` reads and writes the HTML like a pane's.
     """
 
-    def __init__(self, css_classes: list[str], margin=(4, 10)) -> None:
+    def __init__(self, css_classes: list[str], margin=(4, 10), css: str = PANE_CSS) -> None:
         super().__init__()
-        self.div = Div(text="", css_classes=["pl-live", *css_classes], stylesheets=[PANE_CSS],
+        self.div = Div(text="", css_classes=["pl-live", *css_classes], stylesheets=[css],
                        sizing_mode="stretch_width", margin=margin)
         self._pane = pn.pane.Bokeh(self.div, sizing_mode="stretch_width", margin=0)
 

@@ -146,5 +146,5 @@ def test_copy_puts_the_justification_on_the_clipboard(open_page, server):
     page.evaluate("() => { document.execCommand = () => false; }")
     page.locator(".pl-just-copy-current button").click()
     expect(page.locator(".pl-just-status-current")).to_contain_text("the text is selected")
-    selected = page.evaluate("() => window.getSelection().rangeCount")
-    assert selected == 1
+    selected = page.evaluate("() => [window.getSelection().rangeCount, window.getSelection().toString()]")
+    assert selected == [1, want]
