@@ -8,7 +8,7 @@ import panel as pn
 
 from .state import ExplorerState, Snapshot
 from .text import FIND_LABELS, effect_unit, effect_value, num, value_unit
-from .theme import CARD_CSS, PANE_CSS, LiveHTML
+from .theme import CARD_CSS, LiveHTML
 
 __all__ = ["Readout", "Working", "readout_rows", "working_rows"]
 
@@ -162,8 +162,7 @@ class Working(pn.viewable.Viewer):
     def __init__(self, state: ExplorerState) -> None:
         super().__init__()
         self.state = state
-        self.pane = pn.pane.HTML("", stylesheets=[PANE_CSS], sizing_mode="stretch_width",
-                                 css_classes=["pl-working"])
+        self.pane = LiveHTML(css_classes=["pl-working"], margin=(5, 10))   # new text at every rest of a slider
         self.card = pn.Card(self.pane, title="Working, step by step", collapsed=False,
                             sizing_mode="stretch_width", css_classes=["pl-working-card"], margin=(6, 10),
                             header_css_classes=["card-header", "pl-working-header"],
