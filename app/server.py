@@ -542,6 +542,37 @@ def _warm_start() -> None:
     gc.enable()
 
 
+_BUSY_LOCK = threading.RLock()
+
+
+def serialize_busy_count() -> None:
+    """Make Panel's count of events in progress safe to change from several threads at once.
+
+    Panel 1.9 keeps one process-wide list of the events being handled (``pn.state.busy``) and
+    rewrites it, and the read-only flags of all ``pn.state``'s parameters, at the start and end of
+    every event a widget receives. With ``--threads`` those run on worker threads side by side.
+    Two threads then copy the list at the same time and one's entry is lost (counted: 24 of 400
+    entries left behind by four threads), and one thread can restore the read-only flags while
+    another is still writing: a load test with twenty sessions saw a worker fail inside that
+    bookkeeping, and the change it carried never reached the figures. Each of these three steps now
+    runs under one lock (re-entrant: adding an event tidies the list first). Idempotent.
+    """
+    from panel.io.state import _state
+
+    for name in ("_add_busy_event", "_remove_busy_event", "_cleanup_busy_counter"):
+        step = getattr(_state, name)
+        if getattr(step, "__powerlens_locked", False):
+            continue
+
+        def locked(self, *args, _step=step, **kwargs):
+            with _BUSY_LOCK:
+                return _step(self, *args, **kwargs)
+        locked.__powerlens_locked = True
+        locked.__name__ = locked.__qualname__ = name
+        locked.__doc__ = step.__doc__
+        setattr(_state, name, locked)
+
+
 def _serve(args: argparse.Namespace) -> int:
     import panel as pn
     from bokeh.settings import settings
@@ -572,6 +603,7 @@ def _serve(args: argparse.Namespace) -> int:
         return 2
     debug_stats = os.environ.get(DEBUG_STATS_ENV, "") == "1"
     pn.config.nthreads = args.threads or None
+    serialize_busy_count()
     from . import speedups
     speedups.install_server()
     _only_needed_bundles()

@@ -312,3 +312,45 @@ def test_server_starts_with_its_imports_out_of_the_collectors_way(guarded):
     got = stats(guarded.port)
     assert got["gc_enabled"] is True
     assert got["gc_frozen"] > 100_000     # the imports' long-lived objects (261,178 on a running server)
+
+
+def test_panels_busy_count_survives_worker_threads():
+    """``serialize_busy_count``: four threads adding and removing 100 events each leave none behind
+    and raise nothing (without it, Panel 1.9's copy-and-replace of its one list lost about 24 of
+    the 400 removals here, and the read-only flags it toggles could be restored mid-write)."""
+    import sys
+    import threading
+    import uuid
+
+    from panel.io.state import state
+
+    from app.server import serialize_busy_count
+    serialize_busy_count()
+    serialize_busy_count()                  # idempotent: still one lock, not two layers
+    ours, errors = set(), []
+
+    def work():
+        for _ in range(100):
+            event = f"test-{uuid.uuid4().hex}"
+            ours.add(event)
+            try:
+                state._add_busy_event(event)
+                state._remove_busy_event(event)
+            except Exception as e:          # noqa: BLE001 - any failure is the finding
+                errors.append(repr(e))
+
+    interval = sys.getswitchinterval()
+    sys.setswitchinterval(1e-4)             # switch threads often, as a loaded server does
+    try:
+        threads = [threading.Thread(target=work) for _ in range(4)]
+        for t in threads:
+            t.start()
+        for t in threads:
+            t.join()
+    finally:
+        sys.setswitchinterval(interval)
+    assert errors == []
+    assert [e for e, _ in state._busy_counter if e in ours] == []
+    locked = type(state)._add_busy_event
+    assert getattr(locked, "__powerlens_locked", False)
+    assert not getattr(locked.__kwdefaults__["_step"], "__powerlens_locked", False)   # Panel's own step inside
