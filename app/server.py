@@ -379,6 +379,7 @@ def _debug_stats_pattern():
                      "gc_pauses": _gc_pauses.as_dict(),
                      "gc_enabled": gc.isenabled(),
                      "gc_frozen": gc.get_freeze_count(),
+                     "switch_interval_s": sys.getswitchinterval(),
                      "handled_ms": _handling.ms}
             del objs
             self.set_header("Content-Type", "application/json")
@@ -542,6 +543,9 @@ def _warm_start() -> None:
     gc.enable()
 
 
+#: how long a thread may hold the GIL while another waits for it (Python's default is 5 ms)
+SWITCH_INTERVAL_S = 0.001
+
 _BUSY_LOCK = threading.RLock()
 
 
@@ -604,6 +608,11 @@ def _serve(args: argparse.Namespace) -> int:
     debug_stats = os.environ.get(DEBUG_STATS_ENV, "") == "1"
     pn.config.nthreads = args.threads or None
     serialize_busy_count()
+    # The event loop (reading the sessions' messages, writing their patches) shares the GIL with the
+    # worker threads computing the changes. With Python's 5 ms switch interval a message could wait
+    # 5 ms at each hand-over while a worker computed; measured with bench_load (20 sessions x 50
+    # changes): the server's own p95 129 -> 77 ms, all sessions' p95 255 -> 172 ms.
+    sys.setswitchinterval(SWITCH_INTERVAL_S)
     from . import speedups
     speedups.install_server()
     _only_needed_bundles()

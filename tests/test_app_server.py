@@ -314,6 +314,13 @@ def test_server_starts_with_its_imports_out_of_the_collectors_way(guarded):
     assert got["gc_frozen"] > 100_000     # the imports' long-lived objects (261,178 on a running server)
 
 
+def test_server_hands_the_gil_over_every_millisecond(guarded):
+    """The serving process switches threads every SWITCH_INTERVAL_S (1 ms), not Python's 5 ms."""
+    from app.server import SWITCH_INTERVAL_S
+    assert SWITCH_INTERVAL_S == 0.001
+    assert stats(guarded.port)["switch_interval_s"] == pytest.approx(SWITCH_INTERVAL_S)
+
+
 def test_panels_busy_count_survives_worker_threads():
     """``serialize_busy_count``: four threads adding and removing 100 events each leave none behind
     and raise nothing (without it, Panel 1.9's copy-and-replace of its one list lost about 24 of
