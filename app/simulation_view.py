@@ -8,6 +8,8 @@ happens on the event loop. Without a server (tests) the run happens in the calli
 from __future__ import annotations
 
 import html
+import os
+import sys
 import threading
 import time
 from typing import Any, Callable
@@ -21,7 +23,7 @@ from .state import ExplorerState
 from .text import num
 from .theme import PANE_CSS, WIDGET_CSS, button_look, page_value
 
-__all__ = ["REPS", "SimulationPanel", "same_but_n"]
+__all__ = ["REPS", "SIM_NICE", "SimulationPanel", "same_but_n", "yield_cpu"]
 
 REPS = {"1,000": 1000, "10,000": 10_000, "100,000": 100_000}
 
@@ -33,6 +35,28 @@ def same_but_n(a: Scenario, b: Scenario) -> bool:
     da.pop("find", None), db.pop("find", None)
     return da == db
 
+
+#: how much lower the simulation thread's CPU priority is than the server's other threads (Linux nice)
+SIM_NICE = 10
+
+
+def yield_cpu() -> None:
+    """Lower the calling thread's CPU priority by SIM_NICE (Linux only; elsewhere nothing changes).
+
+    A simulation runs for seconds to minutes in its own thread while the other sessions keep
+    changing. NumPy computes its arrays mostly with the GIL released, so on a busy machine it competed for
+    the cores with the event loop, the other sessions' workers and (in a meeting on one laptop)
+    the browser itself. At a lower priority it takes what is left over and runs longer instead.
+    On Linux a thread has its own nice value, set through its native id; on other systems that
+    id is not a process id, so nothing is changed there.
+    """
+    if not sys.platform.startswith("linux"):
+        return
+    try:
+        tid = threading.get_native_id()
+        os.setpriority(os.PRIO_PROCESS, tid, os.getpriority(os.PRIO_PROCESS, tid) + SIM_NICE)
+    except OSError:        # not permitted here: run at the usual priority
+        pass
 
 class SimulationPanel(pn.viewable.Viewer):
     """Replicates, start, progress, cancel, and the simulated result beside the analytic one."""
@@ -131,7 +155,10 @@ class SimulationPanel(pn.viewable.Viewer):
         if doc is None:
             work()
         else:
-            threading.Thread(target=work, name="powerlens-simulation", daemon=True).start()
+            def background() -> None:
+                yield_cpu()          # this thread only, which ends with the run
+                work()
+            threading.Thread(target=background, name="powerlens-simulation", daemon=True).start()
 
     def _chosen_reps(self) -> int:
         """The replicates chosen last in the page.

@@ -661,3 +661,28 @@ def test_a_change_in_one_thread_is_not_dropped_while_another_thread_moves_the_wi
     ctl.slider.value = 66
     ctl._syncing = False
     assert got == [65]
+
+
+@pytest.mark.skipif(not __import__("sys").platform.startswith("linux"), reason="per-thread nice is Linux's")
+def test_a_simulation_thread_lowers_its_own_priority_only():
+    """simulation_view.yield_cpu: the thread that calls it runs SIM_NICE lower (Linux nice is per
+    thread); the thread that started it keeps its priority."""
+    import os
+    import threading
+
+    from app.simulation_view import SIM_NICE, yield_cpu
+    me = threading.get_native_id()
+    before = os.getpriority(os.PRIO_PROCESS, me)
+    seen = {}
+
+    def run():
+        tid = threading.get_native_id()
+        start = os.getpriority(os.PRIO_PROCESS, tid)
+        yield_cpu()
+        seen["change"] = os.getpriority(os.PRIO_PROCESS, tid) - start
+
+    t = threading.Thread(target=run)
+    t.start()
+    t.join()
+    assert seen["change"] == min(SIM_NICE, 19 - before) and SIM_NICE == 10
+    assert os.getpriority(os.PRIO_PROCESS, me) == before
