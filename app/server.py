@@ -610,8 +610,9 @@ def _serve(args: argparse.Namespace) -> int:
     serialize_busy_count()
     # The event loop (reading the sessions' messages, writing their patches) shares the GIL with the
     # worker threads computing the changes. With Python's 5 ms switch interval a message could wait
-    # 5 ms at each hand-over while a worker computed; measured with bench_load (20 sessions x 50
-    # changes): the server's own p95 129 -> 77 ms, all sessions' p95 255 -> 172 ms.
+    # 5 ms at each hand-over while a worker computed. bench_load (20 sessions x 50 changes), p95 of
+    # all sessions on one machine in one hour: 254 and 255 ms at 5 ms; 172, 193 and 276 ms at 1 ms
+    # (the server's own p95: 119 and 129 ms; 77, 88 and 125 ms). Runs here vary up to twofold.
     sys.setswitchinterval(SWITCH_INTERVAL_S)
     from . import speedups
     speedups.install_server()

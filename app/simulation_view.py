@@ -44,9 +44,10 @@ def yield_cpu() -> None:
     """Lower the calling thread's CPU priority by SIM_NICE (Linux only; elsewhere nothing changes).
 
     A simulation runs for seconds to minutes in its own thread while the other sessions keep
-    changing. NumPy computes its arrays mostly with the GIL released, so on a busy machine it competed for
-    the cores with the event loop, the other sessions' workers and (in a meeting on one laptop)
-    the browser itself. At a lower priority it takes what is left over and runs longer instead.
+    changing. NumPy computes its arrays mostly with the GIL released, so on a busy machine it
+    competed for the cores with the event loop, the other sessions' workers and (in a meeting on
+    one laptop) the browser itself. At a lower priority it takes what is left over and runs
+    longer instead.
     On Linux a thread has its own nice value, set through its native id; on other systems that
     id is not a process id, so nothing is changed there.
     """
@@ -57,6 +58,7 @@ def yield_cpu() -> None:
         os.setpriority(os.PRIO_PROCESS, tid, os.getpriority(os.PRIO_PROCESS, tid) + SIM_NICE)
     except OSError:        # not permitted here: run at the usual priority
         pass
+
 
 class SimulationPanel(pn.viewable.Viewer):
     """Replicates, start, progress, cancel, and the simulated result beside the analytic one."""

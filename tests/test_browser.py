@@ -77,7 +77,7 @@ def test_visual_css_lookup_is_skipped(open_page):
 def test_a_slider_step_makes_no_new_canvases_and_no_style_writes(open_page):
     """speedups items 5, 10 and 11: once warm, a slider step draws the hatch from its cache, leaves the
     legends' items alone (BokehJS 3.9 made 61 canvases a step, re-rendering every legend at every data
-    change) and writes no glyph's empty element's position sheet (10 style sheets rewritten a step,
+    change) and writes no glyph's empty element's position sheet (9-10 style sheets rewritten a step,
     each making the browser recompute styles), while the legends still show their entries and every
     figure is still redrawn (WAIT_JS waits for all three)."""
     from browser_support import HOOK_JS, WAIT_JS
