@@ -619,13 +619,11 @@ class UncertaintyPanel(pn.viewable.Viewer):
         if name and not errors:
             sc = snap.result.solved
             try:
-                self.band_range = band_range(sc, name, float(lo), float(hi))
-                if self.band_show.value:   # the curves are worked out only to be drawn (~3 ms a change)
-                    eb = power_band(sc, name, float(lo), float(hi), effects=_thin(snap.effect_curve.x))
-                    nb = power_band(sc, name, float(lo), float(hi), ns=_thin(snap.n_curve.x))
-                    self.band = (eb, nb)
-                else:
-                    self.band = None
+                self.band_range = lo, hi = band_range(sc, name, float(lo), float(hi))
+                # the curves are worked out only to be drawn (~3 ms a change)
+                self.band = ((power_band(sc, name, lo, hi, effects=_thin(snap.effect_curve.x)),
+                              power_band(sc, name, lo, hi, ns=_thin(snap.n_curve.x)))
+                             if self.band_show.value else None)
             except InvalidParameter as e:
                 self._messages({"band-high" if e.field == "sd_high" else "band-low": f"{e.constraint}; got {e.value!r}"},
                                (self.band_low, self.band_high))

@@ -86,6 +86,8 @@ def expected_power_text(effect: float) -> str:
 SOCKET_TIMES_JS = """(() => {
   const Native = window.WebSocket;
   window.__sock = {sent: null, patch: null, frames: 0};
+  // each key press starts a new timing (the press itself, so the driver needs no call of its own)
+  document.addEventListener('keydown', () => { window.__sock.sent = null; window.__sock.patch = null; }, true);
   window.WebSocket = function (...args) {
     const ws = new Native(...args);
     ws.addEventListener('message', (e) => {
@@ -143,9 +145,6 @@ class LoadSession:
 
     async def hook(self) -> None:
         await self.page.evaluate(HOOK_JS)
-        # each key press starts a new socket timing (the press, not the driver, so no call of its own)
-        await self.page.evaluate("""() => document.addEventListener('keydown', () => {
-            window.__sock.sent = null; window.__sock.patch = null; }, true)""")
         await self.page.locator(EFFECT_HANDLE).focus()
 
     async def change(self, key: str, timeout: float = 30_000) -> float:
