@@ -1,4 +1,4 @@
-"""Measured speed-ups for redrawing the figures: eight in the browser (BokehJS 3.9), three on the server.
+"""Measured speed-ups for building and redrawing the page: eight in the browser (BokehJS 3.9), four on the server.
 
 1. BokehJS lets every line, fill and text property of a figure be overridden by a CSS variable
    (``--bk-line-color`` and so on). To find out whether one is set, it calls
@@ -79,6 +79,16 @@ the browser test ``test_visual_css_lookup_is_skipped`` checks that it is in plac
    changes, two runs each): style recalculation 4.6-4.8 -> 1.3-1.4 ms, layout 3.2-3.7 ->
    2.4-2.7 ms, the renderer's main thread 75-84 -> 66-68 ms. Screenshots of the page after the
    same eight steps are identical pixel for pixel with and without it.
+12. On the server, Bokeh 3.9 works out a property's default afresh at every read of a property
+   that was never set: it merges the overrides of every class in the model's ancestry, validates
+   the value again, asks whether the default is one to keep per object (importing two names
+   inside the function each time), and looks for a theme through a failing attribute lookup. A
+   page build read some 21,000 defaults this way. ``install_server`` keeps, per class and
+   property, the merged overrides, the answer to "kept per object?", and a default that cannot be
+   changed in place (a number, string, ``None`` or a tuple of them; a list, dict or model is
+   still made anew for each object, as Bokeh does); a theme's values still come first. Measured
+   in one process, CPU time to build a page and its document and serialize it, 8 alternating
+   rounds: minimum 866-981 ms without, 612-650 ms with.
 """
 from __future__ import annotations
 
@@ -86,6 +96,9 @@ import asyncio
 import json
 import logging
 
+from bokeh.core.has_props import HasProps
+from bokeh.core.property.bases import Property
+from bokeh.core.property.descriptors import PropertyDescriptor
 from bokeh.core.serialization import Buffer, BytesRep, Ref, Serializer
 from bokeh.document import Document
 from bokeh.model import Model
@@ -400,9 +413,69 @@ def _create_patch(cls, events, **metadata):
     return msg
 
 
+#: Bokeh's own property-default steps (tests compare them with the kept ones of speed-up 12)
+_bokeh_themed_default = Property.themed_default
+_bokeh_overridden_defaults = HasProps.__dict__["_overridden_defaults"]
+_bokeh_has_unstable_default = PropertyDescriptor.has_unstable_default
+_bokeh_themed_values = HasProps.themed_values
+
+_IMMUTABLE = (str, int, float, bool, type(None))
+_MISSING = object()
+_overrides_kept: dict[type, dict] = {}
+_defaults_kept: dict[tuple, object] = {}
+_unstable_kept: dict[tuple, bool] = {}
+
+
+def _immutable(value) -> bool:
+    return isinstance(value, _IMMUTABLE) or (type(value) is tuple and all(_immutable(v) for v in value))
+
+
+def _overridden_defaults(cls) -> dict:
+    """``HasProps._overridden_defaults``, merged once per class (speed-up 12). Read-only to callers."""
+    merged = _overrides_kept.get(cls)
+    if merged is None:
+        merged = {}
+        for c in reversed(cls.__mro__):
+            merged.update(getattr(c, "__overridden_defaults__", {}))
+        _overrides_kept[cls] = merged
+    return merged
+
+
+def _themed_default(self, cls, name, theme_overrides, *, no_eval=False):
+    """``Property.themed_default``, kept per class when the value cannot change (speed-up 12)."""
+    if theme_overrides is not None and name in theme_overrides:
+        return _bokeh_themed_default(self, cls, name, theme_overrides, no_eval=no_eval)
+    key = (id(self), cls, name, no_eval)
+    value = _defaults_kept.get(key, _MISSING)
+    if value is _MISSING:
+        value = _bokeh_themed_default(self, cls, name, None, no_eval=no_eval)
+        if _immutable(value):
+            _defaults_kept[key] = value
+    return value
+
+
+def _has_unstable_default(self, obj) -> bool:
+    """``PropertyDescriptor.has_unstable_default``: it depends only on the descriptor and the
+    object's class (speed-up 12)."""
+    key = (id(self), type(obj))
+    answer = _unstable_kept.get(key)
+    if answer is None:
+        answer = _unstable_kept[key] = bool(_bokeh_has_unstable_default(self, obj))
+    return answer
+
+
+def _themed_values(self):
+    """``HasProps.themed_values`` without a failing attribute lookup (speed-up 12)."""
+    return self.__dict__.get("__themed_values__")
+
+
 def install_server() -> None:
     """Send each Bokeh message's frames in one go, small arrays inside the JSON, patches without a
-    reference for every model (idempotent; server process)."""
+    reference for every model, property defaults kept per class (idempotent; server process)."""
     Message.send = _send_at_once
     Serializer._encode_bytes = _encode_small_bytes_inline
     patch_doc.create = classmethod(_create_patch)
+    HasProps._overridden_defaults = classmethod(_overridden_defaults)
+    Property.themed_default = _themed_default
+    PropertyDescriptor.has_unstable_default = _has_unstable_default
+    HasProps.themed_values = _themed_values

@@ -516,6 +516,102 @@ def test_patches_refer_to_the_models_they_meet_as_bokeh_does(app):
     assert ours[2] == {unsent}
 
 
+@pytest.fixture
+def kept_defaults():
+    """Speed-up 12 of app/speedups.py in place for one test (the server installs it for good)."""
+    from unittest import mock
+    from bokeh.core.has_props import HasProps
+    from bokeh.core.property.bases import Property
+    from bokeh.core.property.descriptors import PropertyDescriptor
+    from app import speedups
+    with mock.patch.object(HasProps, "_overridden_defaults", classmethod(speedups._overridden_defaults)), \
+            mock.patch.object(Property, "themed_default", speedups._themed_default), \
+            mock.patch.object(PropertyDescriptor, "has_unstable_default", speedups._has_unstable_default), \
+            mock.patch.object(HasProps, "themed_values", speedups._themed_values):
+        yield speedups
+
+
+def _same(a, b) -> bool:
+    if isinstance(a, np.ndarray) or isinstance(b, np.ndarray):
+        return np.array_equal(np.asarray(a), np.asarray(b))
+    if isinstance(a, dict) and isinstance(b, dict):
+        return a.keys() == b.keys() and all(_same(a[k], b[k]) for k in a)
+    if isinstance(a, (list, tuple)) and isinstance(b, (list, tuple)):
+        return type(a) is type(b) and len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
+    return a is b or a == b or (isinstance(a, float) and isinstance(b, float) and math.isnan(a) and math.isnan(b))
+
+
+def test_kept_property_defaults_read_as_bokehs_own(kept_defaults):
+    """speedups item 12: every property of every model of a whole page, defaults included, reads the
+    same with the kept defaults as with Bokeh's own steps, for a page built either way."""
+    from unittest import mock
+    from bokeh.core.has_props import HasProps
+    from bokeh.core.property.bases import Property
+    from bokeh.core.property.descriptors import PropertyDescriptor
+
+    def bokehs_own():
+        return mock.patch.multiple(HasProps, _overridden_defaults=kept_defaults._bokeh_overridden_defaults,
+                                   themed_values=kept_defaults._bokeh_themed_values), \
+            mock.patch.object(Property, "themed_default", kept_defaults._bokeh_themed_default), \
+            mock.patch.object(PropertyDescriptor, "has_unstable_default", kept_defaults._bokeh_has_unstable_default)
+
+    docs = {}
+    for way in ("kept", "bokeh"):
+        if way == "kept":
+            explorer = Explorer()
+            docs[way] = render(explorer)
+        else:
+            a, b, c = bokehs_own()
+            with a, b, c:
+                explorer = Explorer()
+                docs[way] = render(explorer)
+    compared = 0
+    for doc in docs.values():
+        for model in doc.models:
+            kept = model.properties_with_values(include_defaults=True)
+            a, b, c = bokehs_own()
+            with a, b, c:
+                own = model.properties_with_values(include_defaults=True)
+                unset = {name: model.lookup(name).class_default(type(model)) for name in own
+                         if name not in model._property_values}
+            assert kept.keys() == own.keys(), type(model).__name__
+            for name in own:
+                assert _same(kept[name], own[name]), (type(model).__name__, name, kept[name], own[name])
+                compared += 1
+            for name, default in unset.items():       # a model default is made anew at each read: compare its kind
+                again = model.lookup(name).class_default(type(model))
+                assert (type(again) is type(default) if isinstance(default, HasProps) else _same(again, default)), \
+                    (type(model).__name__, name)
+    assert compared > 20_000
+    assert len(kept_defaults._defaults_kept) > 500 and len(kept_defaults._unstable_kept) > 500
+
+
+def test_kept_defaults_leave_mutable_defaults_per_object_and_themes_first(kept_defaults):
+    """speedups item 12: a list, dict or model default is still a new one for each object, and a
+    document's theme still overrides a default that was kept, and stops when the theme goes."""
+    from bokeh.models import Column, Div
+    from bokeh.themes import Theme
+
+    a, b = Column(), Column()
+    assert a.children == [] and a.children is not b.children
+    a.children.append(Div())
+    assert b.children == []
+    s1, s2 = ColumnDataSource(), ColumnDataSource()
+    assert s1.data is not s2.data
+    assert s1.selected is not s2.selected           # a model default: one per object
+
+    title = Title(text="x")
+    default_size = title.text_font_size               # read (and kept) before any theme
+    assert default_size == Title().text_font_size and kept_defaults._defaults_kept
+    doc = Document()
+    doc.add_root(Column(children=[Div(text="y")]))
+    doc.add_root(title)
+    doc.theme = Theme(json={"attrs": {"Title": {"text_font_size": "31px"}}})
+    assert title.text_font_size == "31px"
+    doc.theme = Theme(json={})
+    assert title.text_font_size == default_size
+
+
 def test_figure_overlays_change_on_the_event_loop_only():
     """A pin, band or simulation drawn from a worker thread of a served session waits for the loop's
     next tick (raw Bokeh models changed off the loop once escaped the document lock); on the loop,
