@@ -321,6 +321,14 @@ def test_server_hands_the_gil_over_every_millisecond(guarded):
     assert stats(guarded.port)["switch_interval_s"] == pytest.approx(SWITCH_INTERVAL_S)
 
 
+def test_server_skips_bokehs_callback_signature_checks(guarded):
+    """The serving process builds pages without Bokeh's error diagnostics (a signature check per
+    synced property); the tests, which build pages in their own process, keep them on."""
+    from bokeh.settings import settings
+    assert stats(guarded.port)["error_diagnostics"] is False
+    assert settings.perform_error_diagnostics() is True
+
+
 def test_panels_busy_count_survives_worker_threads():
     """``serialize_busy_count``: four threads adding and removing 100 events each leave none behind
     and raise nothing (without it, Panel 1.9's copy-and-replace of its one list lost about 24 of
